@@ -1,0 +1,66 @@
+// Package optimize proposes next quarter's weekly spend per channel: it
+// maximizes the value of a plan over a set of response-curve draws, under the
+// budget, per-channel bounds, maximum changes, locks and group shares that a
+// media team really has.
+package optimize
+
+// Response is a family of horizon response curves: for each draw d and
+// channel k, R_dk(w) is the extra KPI (in KPI units, over the horizon plus its
+// carryover tail) from spending w per week in each of the horizon's weeks,
+// against spending nothing (DESIGN.md, "Horizon response").
+//
+// Implementations must be safe for concurrent use by several goroutines.
+type Response interface {
+	NumDraws() int
+	NumChannels() int
+	// Eval returns R_dk(w) and its derivative dR_dk/dw at w >= 0.
+	Eval(d, k int, w float64) (r, dr float64)
+}
+
+// Economics turns KPI into money. The value of a plan w under one draw is
+//
+//	Margin · ValuePerKPI · Σ_k R_k(w_k) − Horizon · Σ_k w_k
+//
+// so a budget-neutral move is judged on response alone, and a budget change
+// pays for itself or not (DESIGN.md, "Value of a plan").
+type Economics struct {
+	Horizon     int     // weeks in the plan; must be > 0
+	Margin      float64 // share of KPI value that is profit; 1 when the KPI is already margin
+	ValuePerKPI float64 // currency per KPI unit; 1 for a revenue KPI
+}
+
+// Value returns the value of plan w under draw d. If grad is not nil it
+// receives the gradient with respect to w (len(grad) == len(w)).
+func (e Economics) Value(resp Response, d int, w, grad []float64) float64 {
+	if len(w) != resp.NumChannels() {
+		panic("optimize: plan length does not match channel count")
+	}
+	scale := e.Margin * e.ValuePerKPI
+	h := float64(e.Horizon)
+	var v float64
+	for k, wk := range w {
+		r, dr := resp.Eval(d, k, wk)
+		v += scale*r - h*wk
+		if grad != nil {
+			grad[k] = scale*dr - h
+		}
+	}
+	return v
+}
+
+// Gains writes into dst (allocated if nil) the gain of moving from the status
+// quo c to w under every draw: Value(w) − Value(c). Its distribution is what
+// the risk figures (probability of loss, downside quantile, CVaR) summarize.
+func (e Economics) Gains(dst []float64, resp Response, w, c []float64) []float64 {
+	n := resp.NumDraws()
+	if dst == nil {
+		dst = make([]float64, n)
+	}
+	if len(dst) != n {
+		panic("optimize: gains destination has wrong length")
+	}
+	for d := range n {
+		dst[d] = e.Value(resp, d, w, nil) - e.Value(resp, d, c, nil)
+	}
+	return dst
+}
