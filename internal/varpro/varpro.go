@@ -1,0 +1,594 @@
+// Package varpro solves separable nonlinear least-squares problems by
+// variable projection (Golub & Pereyra 1973, with Kaufman's 1975 Jacobian):
+//
+//	min_{θ, c, γ}  ‖ y − F γ − Σ_l c_l M_l(θ) ‖²,   lo ≤ θ ≤ hi,  (c ≥ 0 optionally)
+//
+// For each θ the linear coefficients (γ for the fixed columns F, c for the
+// θ-dependent columns M) are solved exactly, so the search runs over θ
+// alone. The outer search is a box-constrained Levenberg–Marquardt method
+// with Marquardt's diagonal scaling: the variables held at a bound whose
+// gradient points outward are frozen for the step, the others take the
+// damped Gauss–Newton step, and the result is projected back into the box.
+package varpro
+
+import (
+	"errors"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+
+	"sluice/internal/lsq"
+)
+
+// Problem is a separable least-squares problem.
+type Problem struct {
+	Y     []float64  // observations, length n
+	Fixed *mat.Dense // n×p columns that do not depend on θ (may be nil)
+
+	NumVarying int  // L, the number of θ-dependent columns M_l
+	NonNeg     bool // whether the coefficients of the M_l must be ≥ 0
+
+	Lower, Upper []float64 // bounds on θ; ±Inf for none
+
+	// Columns writes M_l(θ) into cols[l] (each of length n).
+	Columns func(theta []float64, cols [][]float64)
+	// Deriv writes into d[j] (length n) the derivative with respect to θ_j
+	// of Σ_l coef_l M_l(θ), for every j. theta and coef are those of the
+	// last Columns call.
+	Deriv func(theta, coef []float64, d [][]float64)
+}
+
+// Settings controls the search. The zero value is usable.
+type Settings struct {
+	MaxEvaluations int     // objective evaluations per start; 0 means 400
+	RelTol         float64 // relative reduction of the RSS that counts as no progress; 0 means 1e-12
+	// GradTol is the largest cosine between the residual and a Jacobian
+	// column accepted as stationary once steps stop reducing the RSS; the
+	// search stops early when it is 100 times smaller. 0 means 1e-6.
+	GradTol float64
+}
+
+// Status says why a search stopped.
+type Status int
+
+const (
+	Converged      Status = iota // stationary point within tolerances
+	MaxEvaluations               // evaluation budget spent before convergence
+	NoProgress                   // steps no longer reduce the RSS but the gradient test fails
+	Degenerate                   // the Jacobian lost rank (e.g. parameters running off to infinity)
+)
+
+func (s Status) String() string {
+	switch s {
+	case Converged:
+		return "converged"
+	case MaxEvaluations:
+		return "evaluation limit reached"
+	case NoProgress:
+		return "no further progress"
+	case Degenerate:
+		return "degenerate Jacobian"
+	}
+	return "unknown"
+}
+
+// Result is the outcome of one search.
+type Result struct {
+	Theta       []float64 // nonlinear parameters
+	Coef        []float64 // coefficients of the varying columns
+	FixedCoef   []float64 // coefficients of the fixed columns
+	RSS         float64
+	Status      Status
+	Evaluations int
+	Iterations  int
+}
+
+// ErrBadStart reports a start outside the bounds or an RSS that is not finite there.
+var ErrBadStart = errors.New("varpro: start is outside the bounds or gives a non-finite objective")
+
+// Solver holds the workspace for a problem; reuse it across starts to avoid
+// allocation. It is not safe for concurrent use.
+type Solver struct {
+	p       *Problem
+	n, nf   int
+	qf      *mat.Dense // orthonormal basis of span(Fixed), n×nf
+	yt      []float64  // P_F⊥ y
+	cols    [][]float64
+	colsT   [][]float64 // P_F⊥ M_l
+	d       [][]float64
+	gram    *mat.SymDense
+	rhs     []float64
+	coef    []float64
+	resid   []float64
+	gsolver lsq.GramSolver
+	work    []float64
+}
+
+// NewSolver prepares the projection onto the fixed columns.
+func NewSolver(p *Problem) (*Solver, error) {
+	n := len(p.Y)
+	s := &Solver{p: p, n: n}
+	s.yt = append([]float64(nil), p.Y...)
+	if p.Fixed != nil {
+		r, c := p.Fixed.Dims()
+		if r != n {
+			panic("varpro: fixed columns and observations differ in length")
+		}
+		var qr mat.QR
+		qr.Factorize(p.Fixed)
+		var q mat.Dense
+		qr.QTo(&q)
+		s.qf = mat.DenseCopyOf(q.Slice(0, n, 0, c))
+		s.nf = c
+		var rr mat.Dense
+		qr.RTo(&rr)
+		for i := range c {
+			if math.Abs(rr.At(i, i)) < 1e-12*math.Abs(rr.At(0, 0)) {
+				return nil, errors.New("varpro: the fixed columns are linearly dependent")
+			}
+		}
+		s.projectFixed(s.yt)
+	}
+	L := p.NumVarying
+	m := len(p.Lower)
+	s.cols = alloc(L, n)
+	s.colsT = alloc(L, n)
+	s.d = alloc(m, n)
+	s.gram = mat.NewSymDense(L, nil)
+	s.rhs = make([]float64, L)
+	s.coef = make([]float64, L)
+	s.resid = make([]float64, n)
+	s.work = make([]float64, max(s.nf, 1))
+	return s, nil
+}
+
+func alloc(k, n int) [][]float64 {
+	back := make([]float64, k*n)
+	out := make([][]float64, k)
+	for i := range out {
+		out[i] = back[i*n : (i+1)*n : (i+1)*n]
+	}
+	return out
+}
+
+// projectFixed replaces v by P_F⊥ v.
+func (s *Solver) projectFixed(v []float64) {
+	if s.qf == nil {
+		return
+	}
+	raw := s.qf.RawMatrix()
+	w := s.work
+	for j := range s.nf {
+		w[j] = 0
+	}
+	for i := range s.n {
+		row := raw.Data[i*raw.Stride : i*raw.Stride+s.nf]
+		vi := v[i]
+		for j, q := range row {
+			w[j] += q * vi
+		}
+	}
+	for i := range s.n {
+		row := raw.Data[i*raw.Stride : i*raw.Stride+s.nf]
+		var acc float64
+		for j, q := range row {
+			acc += q * w[j]
+		}
+		v[i] -= acc
+	}
+}
+
+// Evaluate computes the linear coefficients and the RSS at theta. The
+// residual and coefficients are kept for a following Jacobian call.
+func (s *Solver) Evaluate(theta []float64) (float64, error) {
+	p := s.p
+	L := p.NumVarying
+	p.Columns(theta, s.cols)
+	for l := range L {
+		copy(s.colsT[l], s.cols[l])
+		s.projectFixed(s.colsT[l])
+	}
+	for a := range L {
+		s.rhs[a] = dot(s.colsT[a], s.yt)
+		for b := a; b < L; b++ {
+			s.gram.SetSym(a, b, dot(s.colsT[a], s.colsT[b]))
+		}
+	}
+	if p.NonNeg {
+		if _, err := s.gsolver.Solve(s.coef, s.gram, s.rhs); err != nil {
+			return math.Inf(1), err
+		}
+	} else if err := s.solveFree(); err != nil {
+		return math.Inf(1), err
+	}
+	copy(s.resid, s.yt)
+	for l := range L {
+		c := s.coef[l]
+		if c == 0 {
+			continue
+		}
+		for i, v := range s.colsT[l] {
+			s.resid[i] -= c * v
+		}
+	}
+	rss := dot(s.resid, s.resid)
+	if math.IsNaN(rss) || math.IsInf(rss, 0) {
+		return math.Inf(1), nil
+	}
+	return rss, nil
+}
+
+// solveFree solves the unconstrained linear subproblem by QR of the
+// projected columns (not normal equations, which square the condition).
+func (s *Solver) solveFree() error {
+	L := s.p.NumVarying
+	a := mat.NewDense(s.n, L, nil)
+	for l := range L {
+		a.SetCol(l, s.colsT[l])
+	}
+	var qr mat.QR
+	qr.Factorize(a)
+	var x mat.VecDense
+	if err := qr.SolveVecTo(&x, false, mat.NewVecDense(s.n, s.yt)); err != nil {
+		for l := range s.coef {
+			s.coef[l] = math.NaN()
+		}
+		return nil
+	}
+	for l := range L {
+		s.coef[l] = x.AtVec(l)
+	}
+	return nil
+}
+
+// jacobian fills jac (n×m) with Kaufman's approximation −P_A⊥ ∂(M c)/∂θ,
+// where A holds the fixed columns and the varying columns with a nonzero
+// coefficient. Call after Evaluate at the same theta.
+func (s *Solver) jacobian(theta []float64, jac *mat.Dense) {
+	p := s.p
+	m := len(theta)
+	p.Deriv(theta, s.coef, s.d)
+	var active []int
+	for l, c := range s.coef {
+		if c != 0 {
+			active = append(active, l)
+		}
+	}
+	var qa *mat.Dense
+	if len(active) > 0 {
+		a := mat.NewDense(s.n, len(active), nil)
+		for i, l := range active {
+			a.SetCol(i, s.colsT[l])
+		}
+		var qr mat.QR
+		qr.Factorize(a)
+		var q mat.Dense
+		qr.QTo(&q)
+		qa = mat.DenseCopyOf(q.Slice(0, s.n, 0, len(active)))
+	}
+	for j := range m {
+		d := s.d[j]
+		s.projectFixed(d)
+		if qa != nil {
+			for i := range len(active) {
+				var w float64
+				for t := range s.n {
+					w += qa.At(t, i) * d[t]
+				}
+				for t := range s.n {
+					d[t] -= w * qa.At(t, i)
+				}
+			}
+		}
+		for t := range s.n {
+			jac.Set(t, j, -d[t])
+		}
+	}
+}
+
+// Solve runs the box-constrained Levenberg–Marquardt search from start.
+func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
+	p := s.p
+	m := len(start)
+	if len(p.Lower) != m || len(p.Upper) != m {
+		panic("varpro: start and bounds differ in length")
+	}
+	maxEval := set.MaxEvaluations
+	if maxEval == 0 {
+		maxEval = 400
+	}
+	relTol := set.RelTol
+	if relTol == 0 {
+		relTol = 1e-12
+	}
+	gradTol := set.GradTol
+	if gradTol == 0 {
+		gradTol = 1e-6
+	}
+	theta := append([]float64(nil), start...)
+	for j, v := range theta {
+		if v < p.Lower[j] || v > p.Upper[j] || math.IsNaN(v) {
+			return Result{}, ErrBadStart
+		}
+	}
+	rss, err := s.Evaluate(theta)
+	if err != nil {
+		return Result{}, err
+	}
+	if math.IsInf(rss, 1) {
+		return Result{}, ErrBadStart
+	}
+	res := Result{Evaluations: 1}
+	jac := mat.NewDense(s.n, m, nil)
+	var jtj mat.SymDense
+	grad := make([]float64, m)
+	trial := make([]float64, m)
+	bestCoef := append([]float64(nil), s.coef...)
+	mu := 1e-3
+	stall := 0
+	status := MaxEvaluations
+	for res.Evaluations < maxEval {
+		res.Iterations++
+		s.jacobian(theta, jac)
+		jtj.SymOuterK(1, jac.T())
+		// grad = Jᵀ r (gradient of ½ RSS).
+		for j := range m {
+			var g float64
+			for t := range s.n {
+				g += jac.At(t, j) * s.resid[t]
+			}
+			grad[j] = g
+		}
+		// Which variables may move: not pinned at a bound by the gradient.
+		free := make([]int, 0, m)
+		var maxCos float64
+		rnorm := math.Sqrt(rss)
+		for j := range m {
+			atLo := theta[j] <= p.Lower[j] && grad[j] > 0
+			atHi := theta[j] >= p.Upper[j] && grad[j] < 0
+			if atLo || atHi {
+				continue
+			}
+			free = append(free, j)
+			if cn := math.Sqrt(jtj.At(j, j)) * rnorm; cn > 0 {
+				maxCos = math.Max(maxCos, math.Abs(grad[j])/cn)
+			}
+		}
+		// Stop early only when clearly stationary; near the round-off floor
+		// the search stalls instead and the looser test below decides.
+		if len(free) == 0 || maxCos <= gradTol*1e-2 || rss == 0 {
+			status = Converged
+			break
+		}
+		if degenerate(&jtj, free) {
+			status = Degenerate
+			break
+		}
+		improved := false
+		for res.Evaluations < maxEval {
+			step, ok := lmStep(&jtj, grad, free, mu)
+			if !ok {
+				mu *= 10
+				if mu > 1e16 {
+					break
+				}
+				continue
+			}
+			copy(trial, theta)
+			for i, j := range free {
+				trial[j] = math.Min(p.Upper[j], math.Max(p.Lower[j], theta[j]+step[i]))
+			}
+			tr, err := s.Evaluate(trial)
+			res.Evaluations++
+			if err == nil && tr < rss {
+				rel := (rss - tr) / math.Max(rss, math.SmallestNonzeroFloat64)
+				copy(theta, trial)
+				copy(bestCoef, s.coef)
+				rss = tr
+				mu = math.Max(mu/3, 1e-12)
+				improved = true
+				if rel < relTol {
+					stall++
+				} else {
+					stall = 0
+				}
+				break
+			}
+			mu *= 4
+			if mu > 1e16 {
+				break
+			}
+		}
+		if !improved || stall >= 3 {
+			// Re-evaluate at the accepted point so the residual matches theta.
+			s.Evaluate(theta)
+			res.Evaluations++
+			s.jacobian(theta, jac)
+			if converged(jac, s.resid, theta, p, gradTol) {
+				status = Converged
+			} else {
+				status = NoProgress
+			}
+			break
+		}
+	}
+	if status == MaxEvaluations || status == Converged || status == Degenerate {
+		s.Evaluate(theta) // make the kept residual and coefficients those of theta
+	}
+	copy(bestCoef, s.coef)
+	res.Theta = theta
+	res.Coef = bestCoef
+	res.RSS = rss
+	res.Status = status
+	res.FixedCoef = s.fixedCoef()
+	return res, nil
+}
+
+// converged applies the gradient (cosine) test at theta.
+func converged(jac *mat.Dense, resid, theta []float64, p *Problem, gradTol float64) bool {
+	n, m := jac.Dims()
+	rnorm := math.Sqrt(dot(resid, resid))
+	if rnorm == 0 {
+		return true
+	}
+	for j := range m {
+		var g, c float64
+		for t := range n {
+			v := jac.At(t, j)
+			g += v * resid[t]
+			c += v * v
+		}
+		if (theta[j] <= p.Lower[j] && g > 0) || (theta[j] >= p.Upper[j] && g < 0) {
+			continue
+		}
+		if c > 0 && math.Abs(g)/(math.Sqrt(c)*rnorm) > gradTol {
+			return false
+		}
+	}
+	return true
+}
+
+// degenerate reports whether the free block of JᵀJ has lost rank, which is
+// what happens when parameters run off towards infinity.
+func degenerate(jtj *mat.SymDense, free []int) bool {
+	k := len(free)
+	sub := mat.NewSymDense(k, nil)
+	for a, i := range free {
+		for b := a; b < k; b++ {
+			sub.SetSym(a, b, jtj.At(i, free[b]))
+		}
+	}
+	// Scale to unit diagonal so the test is invariant to parameter units.
+	d := make([]float64, k)
+	for i := range k {
+		d[i] = math.Sqrt(sub.At(i, i))
+		if d[i] == 0 {
+			return true
+		}
+	}
+	for a := range k {
+		for b := a; b < k; b++ {
+			sub.SetSym(a, b, sub.At(a, b)/(d[a]*d[b]))
+		}
+	}
+	var eig mat.EigenSym
+	if !eig.Factorize(sub, false) {
+		return true
+	}
+	v := eig.Values(nil)
+	return v[0] < 1e-15*v[k-1]
+}
+
+// lmStep solves (JᵀJ + μ diag(JᵀJ)) δ = −g over the free variables.
+func lmStep(jtj *mat.SymDense, grad []float64, free []int, mu float64) ([]float64, bool) {
+	k := len(free)
+	a := mat.NewSymDense(k, nil)
+	b := mat.NewVecDense(k, nil)
+	for i, fi := range free {
+		for j := i; j < k; j++ {
+			a.SetSym(i, j, jtj.At(fi, free[j]))
+		}
+		dg := jtj.At(fi, fi)
+		a.SetSym(i, i, dg*(1+mu)+1e-300)
+		b.SetVec(i, -grad[fi])
+	}
+	var ch mat.Cholesky
+	if !ch.Factorize(a) {
+		return nil, false
+	}
+	var x mat.VecDense
+	if err := ch.SolveVecTo(&x, b); err != nil {
+		return nil, false
+	}
+	out := make([]float64, k)
+	for i := range k {
+		out[i] = x.AtVec(i)
+		if math.IsNaN(out[i]) || math.IsInf(out[i], 0) {
+			return nil, false
+		}
+	}
+	return out, true
+}
+
+// fixedCoef recovers γ = argmin ‖(y − M c) − F γ‖ for the current coefficients.
+func (s *Solver) fixedCoef() []float64 {
+	if s.p.Fixed == nil {
+		return nil
+	}
+	r := append([]float64(nil), s.p.Y...)
+	for l, c := range s.coef {
+		for i, v := range s.cols[l] {
+			r[i] -= c * v
+		}
+	}
+	var qr mat.QR
+	qr.Factorize(s.p.Fixed)
+	var x mat.VecDense
+	if err := qr.SolveVecTo(&x, false, mat.NewVecDense(s.n, r)); err != nil {
+		return nil
+	}
+	return append([]float64(nil), x.RawVector().Data...)
+}
+
+func dot(a, b []float64) float64 {
+	var s float64
+	for i, v := range a {
+		s += v * b[i]
+	}
+	return s
+}
+
+// StdErrors returns the asymptotic standard errors of the fixed
+// coefficients, the varying coefficients and θ at a result, from
+// σ² (JᵀJ)⁻¹ with the full Jacobian of all parameters and
+// σ² = RSS / (n − number of parameters), as NIST StRD certifies them.
+// Coefficients held at zero by the non-negativity constraint count as
+// parameters too.
+func (s *Solver) StdErrors(res Result) (fixedSE, coefSE, thetaSE []float64, err error) {
+	p := s.p
+	if _, err := s.Evaluate(res.Theta); err != nil {
+		return nil, nil, nil, err
+	}
+	copy(s.coef, res.Coef)
+	p.Deriv(res.Theta, s.coef, s.d)
+	L, m := p.NumVarying, len(res.Theta)
+	k := s.nf + L + m
+	dof := s.n - k
+	if dof <= 0 {
+		return nil, nil, nil, errors.New("varpro: no degrees of freedom left for standard errors")
+	}
+	jac := mat.NewDense(s.n, k, nil)
+	for j := range s.nf {
+		for t := range s.n {
+			jac.Set(t, j, p.Fixed.At(t, j))
+		}
+	}
+	for l := range L {
+		jac.SetCol(s.nf+l, s.cols[l])
+	}
+	for j := range m {
+		jac.SetCol(s.nf+L+j, s.d[j])
+	}
+	var qr mat.QR
+	qr.Factorize(jac)
+	var rd mat.Dense
+	qr.RTo(&rd)
+	r := mat.NewTriDense(k, mat.Upper, nil)
+	for i := range k {
+		for j := i; j < k; j++ {
+			r.SetTri(i, j, rd.At(i, j))
+		}
+	}
+	var rinv mat.TriDense
+	if err := rinv.InverseTri(r); err != nil {
+		return nil, nil, nil, errors.New("varpro: the Jacobian is singular; standard errors undefined")
+	}
+	var cov mat.Dense
+	cov.Mul(&rinv, rinv.T())
+	sigma2 := res.RSS / float64(dof)
+	se := make([]float64, k)
+	for j := range k {
+		se[j] = math.Sqrt(sigma2 * cov.At(j, j))
+	}
+	return se[:s.nf], se[s.nf : s.nf+L], se[s.nf+L:], nil
+}
