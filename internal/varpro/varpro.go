@@ -127,6 +127,7 @@ func NewSolver(p *Problem) (*Solver, error) {
 				return nil, errors.New("varpro: the fixed columns are linearly dependent")
 			}
 		}
+		s.work = make([]float64, c)
 		s.projectFixed(s.yt)
 	}
 	L := p.NumVarying
@@ -138,7 +139,6 @@ func NewSolver(p *Problem) (*Solver, error) {
 	s.rhs = make([]float64, L)
 	s.coef = make([]float64, L)
 	s.resid = make([]float64, n)
-	s.work = make([]float64, max(s.nf, 1))
 	return s, nil
 }
 

@@ -1,0 +1,298 @@
+package model
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"slices"
+	"time"
+
+	"sluice/internal/strictyaml"
+)
+
+// Truth describes a synthetic world: the spend each channel gets, the true
+// response of the KPI to it, the baseline, controls and noise. Simulate
+// draws a panel from it, so a fit can be checked against a known answer.
+type Truth struct {
+	Seed    uint64 `yaml:"seed" json:"seed"`
+	Weeks   int    `yaml:"weeks" json:"weeks"`                 // default 156
+	Start   string `yaml:"start" json:"start"`                 // first week, YYYY-MM-DD; default 2023-01-02
+	KPIName string `yaml:"kpi" json:"kpi"`                     // default "revenue"
+	Horizon int    `yaml:"horizon_weeks" json:"horizon_weeks"` // default 13
+
+	Intercept float64 `yaml:"intercept" json:"intercept"` // baseline KPI per week
+	Trend     float64 `yaml:"trend" json:"trend"`         // baseline change from first to last week
+	Season    float64 `yaml:"season" json:"season"`       // amplitude of the yearly cycle, as a share of the intercept
+
+	NoiseSD float64 `yaml:"noise_sd" json:"noise_sd"` // noise SD as a share of the mean KPI; default 0.05
+	NoiseAR float64 `yaml:"noise_ar" json:"noise_ar"` // AR(1) coefficient of the noise
+
+	Channels []TrueChannel `yaml:"channels" json:"channels"`
+	Controls []TrueControl `yaml:"controls" json:"controls"`
+}
+
+// TrueChannel is one channel of a synthetic world.
+type TrueChannel struct {
+	Name       string  `yaml:"name" json:"name"`
+	MeanSpend  float64 `yaml:"mean_spend" json:"mean_spend"`     // weekly
+	Variation  float64 `yaml:"variation" json:"variation"`       // SD of log spend; default 0.3
+	Dark       float64 `yaml:"dark" json:"dark"`                 // share of weeks with no spend (flighting)
+	Follows    string  `yaml:"follows" json:"follows,omitempty"` // spend moves with this channel's
+	Adstock    string  `yaml:"adstock" json:"adstock"`
+	Saturation string  `yaml:"saturation" json:"saturation"`
+	MaxLag     int     `yaml:"max_lag" json:"max_lag,omitempty"`
+	Decay      float64 `yaml:"decay" json:"decay"`
+	Peak       float64 `yaml:"peak" json:"peak,omitempty"`
+	HalfSat    float64 `yaml:"half_saturation" json:"half_saturation"`
+	Shape      float64 `yaml:"shape" json:"shape,omitempty"`
+	Beta       float64 `yaml:"beta" json:"beta"`
+}
+
+// TrueControl is a control variable of a synthetic world: an AR(1) series
+// around Mean with the given SD, entering the KPI with coefficient Coef.
+type TrueControl struct {
+	Name string  `yaml:"name" json:"name"`
+	Mean float64 `yaml:"mean" json:"mean"`
+	SD   float64 `yaml:"sd" json:"sd"`
+	AR   float64 `yaml:"ar" json:"ar"`
+	Coef float64 `yaml:"coef" json:"coef"`
+	// Binary controls (a promotion flag) are on in this share of weeks.
+	OnShare float64 `yaml:"on_share" json:"on_share,omitempty"`
+}
+
+// LoadTruth reads a truth file strictly and checks it.
+func LoadTruth(path string) (*Truth, error) {
+	var t Truth
+	if err := strictyaml.ReadFile(path, &t); err != nil {
+		return nil, err
+	}
+	if err := t.fill(path); err != nil {
+		return nil, err
+	}
+	return &t, nil
+}
+
+func (t *Truth) fill(source string) error {
+	if t.Weeks == 0 {
+		t.Weeks = 156
+	}
+	if t.Start == "" {
+		t.Start = "2023-01-02"
+	}
+	if t.KPIName == "" {
+		t.KPIName = "revenue"
+	}
+	if t.Horizon == 0 {
+		t.Horizon = DefaultHorizon
+	}
+	if t.NoiseSD == 0 {
+		t.NoiseSD = 0.05
+	}
+	bad := func(field, format string, a ...any) error {
+		return fmt.Errorf("%s: %s: %s", source, field, fmt.Sprintf(format, a...))
+	}
+	if _, err := time.Parse(time.DateOnly, t.Start); err != nil {
+		return bad("start", "%q is not a date YYYY-MM-DD", t.Start)
+	}
+	if t.Weeks < 20 || t.Weeks > 2000 {
+		return bad("weeks", "%d must be between 20 and 2000", t.Weeks)
+	}
+	if t.NoiseSD < 0 || math.Abs(t.NoiseAR) >= 1 {
+		return bad("noise", "noise_sd must be >= 0 and |noise_ar| < 1")
+	}
+	if len(t.Channels) == 0 {
+		return bad("channels", "at least one channel is needed")
+	}
+	names := map[string]bool{}
+	for i := range t.Channels {
+		c := &t.Channels[i]
+		p := fmt.Sprintf("channels[%d]", i)
+		if c.Name == "" || names[c.Name] {
+			return bad(p+".name", "%q is empty or repeated", c.Name)
+		}
+		names[c.Name] = true
+		if c.Adstock == "" {
+			c.Adstock = AdstockGeometric
+		}
+		if c.Saturation == "" {
+			c.Saturation = SaturationHill
+		}
+		if c.Adstock == AdstockDelayed && c.MaxLag == 0 {
+			c.MaxLag = DefaultMaxLag
+		}
+		if c.Saturation == SaturationHill && c.Shape == 0 {
+			c.Shape = 1
+		}
+		if c.Variation == 0 {
+			c.Variation = 0.3
+		}
+		if c.MeanSpend <= 0 || c.HalfSat <= 0 || c.Beta < 0 || c.Decay < 0 || c.Decay >= 1 || c.Dark < 0 || c.Dark >= 1 {
+			return bad(p, "needs mean_spend > 0, half_saturation > 0, beta >= 0, 0 <= decay < 1, 0 <= dark < 1")
+		}
+	}
+	for i, c := range t.Channels {
+		if c.Follows != "" && (!names[c.Follows] || c.Follows == c.Name) {
+			return bad(fmt.Sprintf("channels[%d].follows", i), "%q is not another channel", c.Follows)
+		}
+		if c.Follows != "" {
+			j := slices.IndexFunc(t.Channels, func(o TrueChannel) bool { return o.Name == c.Follows })
+			if j > i {
+				return bad(fmt.Sprintf("channels[%d].follows", i), "%q must be listed before %q", c.Follows, c.Name)
+			}
+		}
+	}
+	return nil
+}
+
+// Spec returns the model structure of the truth (its true kinds, default bounds).
+func (t *Truth) Spec() Spec {
+	var ch, ctl []string
+	for _, c := range t.Channels {
+		ch = append(ch, c.Name)
+	}
+	for _, c := range t.Controls {
+		ctl = append(ctl, c.Name)
+	}
+	s := NewSpec(ch, ctl)
+	for i, c := range t.Channels {
+		s.Channels[i].Adstock = c.Adstock
+		s.Channels[i].Saturation = c.Saturation
+		s.Channels[i].MaxLag = c.MaxLag
+	}
+	s.Horizon = t.Horizon
+	s.fill()
+	return s
+}
+
+// Simulated is a synthetic panel with its truth.
+type Simulated struct {
+	Panel   *Panel
+	Truth   *Truth
+	Params  Params           // true parameters in the model's layout (Fixed: intercept, trend, season terms, controls)
+	Summary []ChannelSummary // true ROI, marginal ROI, ... per channel
+	// Response is each channel's true horizon response at current spend.
+	Response []float64
+}
+
+// ErrTruth reports a truth that cannot be simulated.
+var ErrTruth = errors.New("model: invalid truth")
+
+// Simulate draws a panel from t. The same truth (including its seed) gives
+// the same panel.
+func Simulate(t *Truth) (*Simulated, error) {
+	if err := t.fill("truth"); err != nil {
+		return nil, err
+	}
+	rng := rand.New(rand.NewPCG(t.Seed, 0x5eed))
+	n := t.Weeks
+	start, _ := time.Parse(time.DateOnly, t.Start)
+	p := &Panel{Source: "simulated", KPIName: t.KPIName}
+	for w := range n {
+		p.Weeks = append(p.Weeks, start.AddDate(0, 0, 7*w))
+	}
+	// Spend: log-normal AR(1) around the mean, flighting, following.
+	logs := map[string][]float64{}
+	for _, c := range t.Channels {
+		z := ar1(rng, n, 0.6)
+		if c.Follows != "" {
+			lead := logs[c.Follows]
+			for i := range z {
+				z[i] = lead[i] + 0.1*z[i] // nearly the same pattern
+			}
+		}
+		logs[c.Name] = z
+		x := make([]float64, n)
+		for i := range x {
+			x[i] = math.Exp(c.Variation * z[i])
+		}
+		if c.Dark > 0 {
+			for i := range x {
+				if rng.Float64() < c.Dark {
+					x[i] = 0
+				}
+			}
+		}
+		scale := c.MeanSpend / meanOf(x)
+		for i := range x {
+			x[i] = math.Round(x[i]*scale*100) / 100
+		}
+		p.Channels = append(p.Channels, c.Name)
+		p.Spend = append(p.Spend, x)
+	}
+	for _, c := range t.Controls {
+		z := ar1(rng, n, c.AR)
+		x := make([]float64, n)
+		for i := range x {
+			if c.OnShare > 0 {
+				if rng.Float64() < c.OnShare {
+					x[i] = 1
+				}
+				continue
+			}
+			x[i] = math.Round((c.Mean+c.SD*z[i])*1e4) / 1e4
+		}
+		p.Controls = append(p.Controls, c.Name)
+		p.Control = append(p.Control, x)
+	}
+	spec := t.Spec()
+	d := &Design{Spec: spec, N: n, Spend: p.Spend, MeanSpend: make([]float64, len(p.Channels))}
+	for k, x := range p.Spend {
+		d.MeanSpend[k] = meanOf(x)
+	}
+	d.Fixed = fixedColumns(p, spec)
+	params := Params{Fixed: []float64{t.Intercept, t.Trend}}
+	for h := 1; h <= spec.Harm; h++ {
+		if h == 1 {
+			params.Fixed = append(params.Fixed, t.Season*t.Intercept, 0)
+		} else {
+			params.Fixed = append(params.Fixed, 0, 0)
+		}
+	}
+	for _, c := range t.Controls {
+		params.Fixed = append(params.Fixed, c.Coef)
+	}
+	for _, c := range t.Channels {
+		params.Channels = append(params.Channels, ChannelParams{Decay: c.Decay, Peak: c.Peak, HalfSat: c.HalfSat, Shape: shapeOf(c), Beta: c.Beta})
+	}
+	mu := d.Predict(params)
+	noise := ar1(rng, n, t.NoiseAR)
+	sd := t.NoiseSD * meanOf(mu)
+	p.KPI = make([]float64, n)
+	for i := range mu {
+		p.KPI[i] = math.Max(0, math.Round((mu[i]+sd*noise[i])*100)/100)
+	}
+	sim := &Simulated{Panel: p, Truth: t, Params: params, Summary: d.Summarize(params, 1)}
+	cur := d.CurrentSpend()
+	for k, cp := range params.Channels {
+		r, _ := d.NewCurve(k, cp, t.Horizon).Eval(cur[k])
+		sim.Response = append(sim.Response, r)
+	}
+	return sim, nil
+}
+
+func shapeOf(c TrueChannel) float64 {
+	if c.Saturation == SaturationHill {
+		return c.Shape
+	}
+	return 0
+}
+
+// ar1 returns a stationary AR(1) series with unit variance.
+func ar1(rng *rand.Rand, n int, phi float64) []float64 {
+	z := make([]float64, n)
+	s := math.Sqrt(1 - phi*phi)
+	z[0] = rng.NormFloat64()
+	for i := 1; i < n; i++ {
+		z[i] = phi*z[i-1] + s*rng.NormFloat64()
+	}
+	return z
+}
+
+func meanOf(x []float64) float64 {
+	var s float64
+	for _, v := range x {
+		s += v
+	}
+	return s / float64(len(x))
+}

@@ -1,0 +1,83 @@
+package model
+
+import (
+	"math"
+	"testing"
+)
+
+// Closed forms (common practice, no source needed beyond the algebra):
+// the geometric adstock of a constant spend x tends to x/(1−λ) (geometric
+// series); the half-life of weight λ^t is ln 0.5 / ln λ; Hill at a = k is
+// exactly one half.
+func TestGeometricSteadyState(t *testing.T) {
+	for _, lambda := range []float64{0, 0.3, 0.7, 0.9} {
+		x := make([]float64, 400)
+		for i := range x {
+			x[i] = 250
+		}
+		a := Geometric(make([]float64, len(x)), x, lambda)
+		want := 250 / (1 - lambda)
+		if got := a[len(a)-1]; math.Abs(got-want) > 1e-9*want {
+			t.Errorf("λ=%v: steady state %v, want %v", lambda, got, want)
+		}
+	}
+}
+
+func TestHalfLife(t *testing.T) {
+	cases := []struct{ lambda, want float64 }{
+		{0.5, 1}, {0.25, 0.5}, {math.Pow(0.5, 1.0/3), 3}, {0, 0},
+	}
+	for _, c := range cases {
+		if got := HalfLife(c.lambda); math.Abs(got-c.want) > 1e-12 {
+			t.Errorf("HalfLife(%v) = %v, want %v", c.lambda, got, c.want)
+		}
+	}
+}
+
+func TestHillHalfAtK(t *testing.T) {
+	for _, s := range []float64{0.5, 1, 2, 3.7} {
+		if got := Hill(1234.5, 1234.5, s); got != 0.5 {
+			t.Errorf("Hill(k,k,%v) = %v, want exactly 0.5", s, got)
+		}
+	}
+}
+
+// Derivatives against central finite differences.
+func TestDerivatives(t *testing.T) {
+	const h = 1e-6
+	a, k, s := 3.0, 2.0, 1.7
+	_, da, dk, ds := HillDerivs(a, k, s)
+	fd := func(f func(float64) float64, x float64) float64 { return (f(x+h) - f(x-h)) / (2 * h) }
+	check := func(name string, got, want float64) {
+		if math.Abs(got-want) > 1e-6*math.Max(1, math.Abs(want)) {
+			t.Errorf("%s: analytic %v, numeric %v", name, got, want)
+		}
+	}
+	check("hill/a", da, fd(func(x float64) float64 { return Hill(x, k, s) }, a))
+	check("hill/k", dk, fd(func(x float64) float64 { return Hill(a, x, s) }, k))
+	check("hill/s", ds, fd(func(x float64) float64 { return Hill(a, k, x) }, s))
+	_, ea, ek := ExponentialDerivs(a, k)
+	check("exp/a", ea, fd(func(x float64) float64 { return Exponential(x, k) }, a))
+	check("exp/k", ek, fd(func(x float64) float64 { return Exponential(a, x) }, k))
+
+	x := []float64{5, 0, 3, 8, 1, 0, 0, 4, 2, 7}
+	lambda := 0.6
+	ad := Geometric(make([]float64, len(x)), x, lambda)
+	d := GeometricDecayDeriv(make([]float64, len(x)), ad, lambda)
+	up := Geometric(make([]float64, len(x)), x, lambda+h)
+	dn := Geometric(make([]float64, len(x)), x, lambda-h)
+	for i := range x {
+		check("geometric/λ", d[i], (up[i]-dn[i])/(2*h))
+	}
+	peak := 1.4
+	dl, dp := make([]float64, len(x)), make([]float64, len(x))
+	Delayed(make([]float64, len(x)), dl, dp, x, lambda, peak, 6)
+	lu := Delayed(make([]float64, len(x)), nil, nil, x, lambda+h, peak, 6)
+	ld := Delayed(make([]float64, len(x)), nil, nil, x, lambda-h, peak, 6)
+	pu := Delayed(make([]float64, len(x)), nil, nil, x, lambda, peak+h, 6)
+	pd := Delayed(make([]float64, len(x)), nil, nil, x, lambda, peak-h, 6)
+	for i := range x {
+		check("delayed/λ", dl[i], (lu[i]-ld[i])/(2*h))
+		check("delayed/θ", dp[i], (pu[i]-pd[i])/(2*h))
+	}
+}
