@@ -453,25 +453,26 @@ func (l *loader) readRows(p *Panel) error {
 // prev (the previous row's week, read at line prevLine) when there is one.
 func (l *loader) week(rec []string, prev time.Time, prevLine int, hasPrev bool) (time.Time, error) {
 	i := l.date
-	col := fmt.Sprintf("column %q", l.header[i])
-	if l.header[i] == "" {
-		col = "the unnamed column " + strconv.Itoa(i+1)
-	}
-	hint := hintDate
-	if l.firstAsDate && !hasPrev {
-		hint = hintNoWeek + "; " + hint
-	}
 	s := strings.TrimSpace(rec[i])
-	if s == "" {
-		return time.Time{}, l.cellErr(i, hint, "date in %s is empty", col)
-	}
 	t, ok := parseDate(s)
 	if !ok {
-		if isDateShape(s) {
+		col := fmt.Sprintf("column %q", l.header[i])
+		if l.header[i] == "" {
+			col = "the unnamed column " + strconv.Itoa(i+1)
+		}
+		hint := hintDate
+		if l.firstAsDate && !hasPrev {
+			hint = hintNoWeek + "; " + hint
+		}
+		switch {
+		case s == "":
+			return time.Time{}, l.cellErr(i, hint, "date in %s is empty", col)
+		case isDateShape(s):
 			return time.Time{}, l.cellErr(i, "the month must be 01 to 12 and the day must exist in that month",
 				"date %q in %s is not a calendar date", s, col)
+		default:
+			return time.Time{}, l.cellErr(i, hint, "date %q in %s is not YYYY-MM-DD", s, col)
 		}
-		return time.Time{}, l.cellErr(i, hint, "date %q in %s is not YYYY-MM-DD", s, col)
 	}
 	if !hasPrev {
 		return t, nil
