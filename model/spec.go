@@ -68,8 +68,8 @@ var (
 	DefaultDecay          = Range{0, 0.85}
 	DefaultPeak           = Range{0, 4}
 	DefaultMaxLag         = 13
-	DefaultHalfSaturation = Range{0.2, 10}
-	DefaultShape          = Range{0.5, 3}
+	DefaultHalfSaturation = Range{0.3, 10}
+	DefaultShape          = Range{1, 3}
 )
 
 const (

@@ -346,7 +346,9 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 		for j := range m {
 			atLo := theta[j] <= p.Lower[j] && grad[j] > 0
 			atHi := theta[j] >= p.Upper[j] && grad[j] < 0
-			if atLo || atHi {
+			// A parameter with a zero Jacobian column (its linear
+			// coefficient is held at zero) cannot move the fit.
+			if atLo || atHi || jtj.At(j, j) == 0 {
 				continue
 			}
 			free = append(free, j)
@@ -358,10 +360,9 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 		// the search stalls instead and the looser test below decides.
 		if len(free) == 0 || maxCos <= gradTol*1e-2 || rss == 0 {
 			status = Converged
-			break
-		}
-		if degenerate(&jtj, free) {
-			status = Degenerate
+			if degenerate(&jtj, nonzero(&jtj)) {
+				status = Degenerate
+			}
 			break
 		}
 		improved := false
@@ -404,9 +405,13 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 			s.Evaluate(theta)
 			res.Evaluations++
 			s.jacobian(theta, jac)
-			if converged(jac, s.resid, theta, p, gradTol) {
+			jtj.SymOuterK(1, jac.T())
+			switch {
+			case degenerate(&jtj, nonzero(&jtj)):
+				status = Degenerate
+			case converged(jac, s.resid, theta, p, gradTol):
 				status = Converged
-			} else {
+			default:
 				status = NoProgress
 			}
 			break
@@ -448,10 +453,24 @@ func converged(jac *mat.Dense, resid, theta []float64, p *Problem, gradTol float
 	return true
 }
 
+// nonzero lists the parameters whose Jacobian column is not zero.
+func nonzero(jtj *mat.SymDense) []int {
+	var out []int
+	for j := range jtj.SymmetricDim() {
+		if jtj.At(j, j) > 0 {
+			out = append(out, j)
+		}
+	}
+	return out
+}
+
 // degenerate reports whether the free block of JᵀJ has lost rank, which is
 // what happens when parameters run off towards infinity.
 func degenerate(jtj *mat.SymDense, free []int) bool {
 	k := len(free)
+	if k == 0 {
+		return false
+	}
 	sub := mat.NewSymDense(k, nil)
 	for a, i := range free {
 		for b := a; b < k; b++ {
