@@ -1,0 +1,128 @@
+package main
+
+import (
+	"encoding/json"
+	"fmt"
+	"io"
+	"text/tabwriter"
+
+	"github.com/urfave/cli/v2"
+
+	"sluice/internal/atomicfile"
+	"sluice/model"
+)
+
+func fitCommand() *cli.Command {
+	return &cli.Command{
+		Name:  "fit",
+		Usage: "fit the response model to a weekly panel and print what each channel returns",
+		Flags: append(modelFlags(),
+			&cli.BoolFlag{Name: "json", Usage: "print a JSON summary instead of the table"},
+			&cli.StringFlag{Name: "out", Usage: "write the fitted model (JSON) to this file"},
+		),
+		Action: func(c *cli.Context) error {
+			o, err := newOpts(c)
+			if err != nil {
+				return err
+			}
+			in, err := loadModelInput(o)
+			if err != nil {
+				return err
+			}
+			fr, err := in.Design.Fit(in.Panel.KPI, model.FitSettings{Seed: in.Seed, Workers: in.Workers})
+			if err != nil {
+				return err
+			}
+			sum := newFitSummary(in, fr)
+			if out := o.String("out"); out != "" {
+				if err := writeJSON(out, sum); err != nil {
+					return err
+				}
+			}
+			if o.Bool("json") {
+				return printJSON(c.App.Writer, sum)
+			}
+			printFitTable(c.App.Writer, sum)
+			return nil
+		},
+	}
+}
+
+// fitSummary is the JSON form of a fit (stdout with --json, --out file).
+type fitSummary struct {
+	Tool     string                 `json:"tool"`
+	Version  string                 `json:"version"`
+	Seed     uint64                 `json:"seed"`
+	Inputs   inputHashes            `json:"inputs"`
+	KPI      string                 `json:"kpi"`
+	Weeks    int                    `json:"weeks"`
+	Horizon  int                    `json:"horizon_weeks"`
+	Channels []model.ChannelSummary `json:"channels"`
+	Fit      fitInfo                `json:"fit"`
+	Params   model.Params           `json:"params"`
+	Fixed    []string               `json:"fixed_columns"`
+}
+
+type inputHashes struct {
+	Data       string `json:"data"`
+	DataSHA256 string `json:"data_sha256"`
+	SpecSHA256 string `json:"spec_sha256,omitempty"`
+}
+
+type fitInfo struct {
+	model.Stats
+	SSE         float64 `json:"sse"`
+	Status      string  `json:"status"`
+	Starts      int     `json:"starts"`
+	Converged   int     `json:"starts_converged"`
+	Evaluations int     `json:"evaluations"`
+	Parameters  int     `json:"parameters"`
+}
+
+func newFitSummary(in *modelInput, fr *model.FitResult) fitSummary {
+	return fitSummary{
+		Tool: "sluice", Version: version, Seed: in.Seed,
+		Inputs:   inputHashes{Data: in.DataPath, DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256},
+		KPI:      in.Panel.KPIName,
+		Weeks:    in.Panel.NumWeeks(),
+		Horizon:  in.Spec.Horizon,
+		Channels: in.Design.Summarize(fr.Params, in.ValuePerKPI),
+		Fit: fitInfo{Stats: model.FitStats(in.Panel.KPI, fr.Residuals, in.Spec.NumParams()),
+			SSE: fr.SSE, Status: fr.Status.String(), Starts: fr.StartsTried, Converged: fr.Converged,
+			Evaluations: fr.Evaluations, Parameters: in.Spec.NumParams()},
+		Params: fr.Params,
+		Fixed:  in.Spec.FixedNames(),
+	}
+}
+
+func printFitTable(w io.Writer, s fitSummary) {
+	fmt.Fprintf(w, "%s over %d weeks; ROI and marginal ROI in currency per currency; current spend = mean of the last %d weeks\n\n",
+		s.KPI, s.Weeks, model.CurrentWeeks)
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintln(tw, "channel\tspend share\tcontribution share\tROI\tmarginal ROI\thalf-life (weeks)\tsaturation at current\t")
+	for _, c := range s.Channels {
+		fmt.Fprintf(tw, "%s\t%.1f%%\t%.1f%%\t%.2f\t%.2f\t%.1f\t%.0f%%\t\n", c.Name, 100*c.SpendShare,
+			100*c.ContributionShare, c.ROI, c.MROI, c.HalfLifeWeeks, 100*c.Saturation)
+	}
+	tw.Flush()
+	f := s.Fit
+	fmt.Fprintf(w, "\nin-sample R² %.3f  wMAPE %.1f%%  residual SD %.4g  Durbin–Watson %.2f\n", f.R2, 100*f.WMAPE, f.Sigma, f.DurbinWatson)
+	fmt.Fprintf(w, "fit: %s; %d of %d starts converged; best SSE %.6g; %d evaluations; %d parameters; seed %d\n",
+		f.Status, f.Converged, f.Starts, f.SSE, f.Evaluations, f.Parameters, s.Seed)
+	fmt.Fprintln(w, "in-sample fit is not evidence of a good model: run `sluice validate` for holdout and recovery checks")
+}
+
+func printJSON(w io.Writer, v any) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
+}
+
+// writeJSON writes v as indented JSON atomically.
+func writeJSON(path string, v any) error {
+	b, err := json.MarshalIndent(v, "", "  ")
+	if err != nil {
+		return err
+	}
+	return atomicfile.Write(path, append(b, '\n'), 0o644)
+}

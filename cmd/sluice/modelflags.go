@@ -1,0 +1,122 @@
+package main
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"os"
+
+	"github.com/urfave/cli/v2"
+
+	"sluice/model"
+)
+
+// modelFlags are the flags every command that fits the model shares.
+func modelFlags() []cli.Flag {
+	return []cli.Flag{
+		&cli.StringFlag{Name: "data", Usage: "weekly panel CSV (header row, ISO week dates)"},
+		&cli.StringFlag{Name: "kpi", Usage: "KPI column (revenue, or units with --value-per-kpi)"},
+		&cli.StringFlag{Name: "channels", Usage: "comma-separated spend columns"},
+		&cli.StringFlag{Name: "controls", Usage: "comma-separated control columns"},
+		&cli.StringFlag{Name: "date-column", Usage: "date column (default: \"week\", else the first column)"},
+		&cli.StringFlag{Name: "spec", Usage: "model spec YAML (adstock and saturation kinds, bounds, harmonics, horizon)"},
+		&cli.Float64Flag{Name: "value-per-kpi", Value: 1, Usage: "currency per KPI unit, for a KPI counted in units"},
+		&cli.IntFlag{Name: "horizon", Usage: "planning horizon in weeks (default 13, or the spec's)"},
+		&cli.IntFlag{Name: "harmonics", Value: -1, Usage: "Fourier harmonics of the yearly season (default 2, or the spec's)"},
+		&cli.BoolFlag{Name: "no-trend", Usage: "leave the linear trend out of the base"},
+		&cli.IntFlag{Name: "starts", Usage: "multi-start count of the fit (default 6, or the spec's)"},
+		&cli.Uint64Flag{Name: "seed", Value: 1, Usage: "seed of every random stream; recorded in every output"},
+		&cli.IntFlag{Name: "workers", Value: 2, Usage: "parallel workers"},
+	}
+}
+
+// modelInput is a loaded panel and spec with their hashes.
+type modelInput struct {
+	DataPath    string
+	Panel       *model.Panel
+	Spec        model.Spec
+	Design      *model.Design
+	ValuePerKPI float64
+	Seed        uint64
+	Workers     int
+	DataSHA256  string
+	SpecSHA256  string // "" without a spec file
+}
+
+func loadModelInput(o *opts) (*modelInput, error) {
+	in := &modelInput{DataPath: o.String("data"), ValuePerKPI: o.Float("value-per-kpi"),
+		Seed: o.Uint64("seed"), Workers: max(1, o.Int("workers"))}
+	if in.DataPath == "" {
+		return nil, withHint(errors.New("no data file"), "pass --data weekly.csv (or set data: in sluice.yaml)")
+	}
+	if !(in.ValuePerKPI > 0) {
+		return nil, fmt.Errorf("--value-per-kpi %g must be positive", in.ValuePerKPI)
+	}
+	var specFile *model.SpecFile
+	specPath := o.String("spec")
+	controls := o.List("controls")
+	if specPath != "" {
+		f, err := model.LoadSpecFile(specPath)
+		if err != nil {
+			return nil, err
+		}
+		specFile = f
+		if in.SpecSHA256, err = sha256File(specPath); err != nil {
+			return nil, err
+		}
+		if len(controls) == 0 {
+			controls = f.Controls
+		}
+	}
+	cols := model.Columns{Date: o.String("date-column"), KPI: o.String("kpi"), Channels: o.List("channels"), Controls: controls}
+	if cols.KPI == "" {
+		return nil, withHint(errors.New("no KPI column"), "pass --kpi revenue (the column the model explains)")
+	}
+	if len(cols.Channels) == 0 {
+		return nil, withHint(errors.New("no channels"), "pass --channels search,social,... (the spend columns)")
+	}
+	p, err := model.LoadPanel(in.DataPath, cols)
+	if err != nil {
+		return nil, err
+	}
+	in.Panel = p
+	spec := model.NewSpec(cols.Channels, controls)
+	if specFile != nil {
+		if err := spec.ApplyFile(specFile, specPath); err != nil {
+			return nil, err
+		}
+	}
+	if h := o.Int("horizon"); h != 0 {
+		spec.Horizon = h
+	}
+	if h := o.Int("harmonics"); h >= 0 {
+		spec.Harm = h
+	}
+	if o.Bool("no-trend") {
+		spec.Trend = false
+	}
+	if s := o.Int("starts"); s != 0 {
+		spec.Starts = s
+	}
+	if err := spec.Validate("model"); err != nil {
+		return nil, err
+	}
+	in.Spec = spec
+	if in.Design, err = model.NewDesign(p, spec); err != nil {
+		return nil, err
+	}
+	if in.DataSHA256, err = sha256File(in.DataPath); err != nil {
+		return nil, err
+	}
+	return in, nil
+}
+
+func sha256File(path string) (string, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return "", err
+	}
+	sum := sha256.Sum256(b)
+	return hex.EncodeToString(sum[:]), nil
+}
