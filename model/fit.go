@@ -485,3 +485,19 @@ func (w *workspace) deriv(theta, coef []float64, dst [][]float64) {
 		}
 	}
 }
+
+// Head returns the design of the first n weeks, for fitting on a training
+// window. It keeps this design's mean spend and trend scale, so parameters
+// fitted on the head predict the full design's weeks directly (the holdout
+// forecast with the spend actually made).
+func (d *Design) Head(n int) *Design {
+	if n < 1 || n > d.N {
+		panic("model: head length out of range")
+	}
+	h := &Design{Spec: d.Spec, N: n, MeanSpend: d.MeanSpend, Spend: make([][]float64, len(d.Spend))}
+	for k, x := range d.Spend {
+		h.Spend[k] = x[:n:n]
+	}
+	h.Fixed = mat.DenseCopyOf(d.Fixed.Slice(0, n, 0, d.Spec.NumFixed()))
+	return h
+}

@@ -103,3 +103,20 @@ func sameRanking(a, b []ChannelSummary, which []int) bool {
 	}
 	return true
 }
+
+// A head design keeps the full design's scaling, so the prediction of its
+// weeks equals the first weeks of the full design's prediction.
+func TestHeadPredictsLikeFull(t *testing.T) {
+	sim := simulateFile(t, "testdata/truth_recovery.yaml")
+	d, err := NewDesign(sim.Panel, sim.Truth.Spec())
+	if err != nil {
+		t.Fatal(err)
+	}
+	full := d.Predict(sim.Params)
+	head := d.Head(100).Predict(sim.Params)
+	for i := range head {
+		if math.Abs(head[i]-full[i]) > 1e-9*math.Abs(full[i]) {
+			t.Fatalf("week %d: head %v, full %v", i, head[i], full[i])
+		}
+	}
+}
