@@ -88,6 +88,9 @@ func newApp(stdout, stderr io.Writer) *cli.App {
 			fitCommand(),
 			simulateCommand(),
 			demoCommand(),
+			bootstrapCommand(),
+			mergeCommand(),
+			curvesCommand(),
 		},
 	}
 }

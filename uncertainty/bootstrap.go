@@ -1,0 +1,256 @@
+package uncertainty
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"sync"
+
+	"sluice/internal/varpro"
+	"sluice/model"
+)
+
+// DefaultDraws is the number of replicates when Bootstrap.Draws is zero.
+const DefaultDraws = 1000
+
+// Bootstrap is a residual bootstrap of the response model: the problem (a
+// design and its KPI) and how to resample and refit it. Every field but
+// Design and Y documents what its zero value means.
+//
+// Run first fits the full data (multi-start), then builds replicate i as
+//
+//	y*_i = ŷ + e*_i,   e*_i = Resampler{Method, BlockLength}.Residuals(e, Stream(Seed, i))
+//
+// with ŷ and e the full fit's fitted values and residuals, and refits y*_i
+// warm-started from the full fit. A refit that stops without converging
+// (varpro.Converged) is continued from where it stopped, with the search's
+// damping reset; if that does not converge either, it is retried with the
+// full multi-start: Starts starts, the first where the continuation
+// stopped, then the centre of the box and random starts seeded by the next
+// 64 bits of the replicate's stream. If the retry does not converge, the
+// replicate is recorded as failed with the reasons of all three attempts.
+// Replicate i therefore depends only on (the problem, Seed, i): not on the
+// worker count, the order of computation or the shard.
+type Bootstrap struct {
+	Design *model.Design
+	Y      []float64 // the observed KPI, length Design.N
+
+	// Method is the resampling scheme; the zero value means MovingBlock.
+	Method Method
+	// BlockLength is the block length (MovingBlock) or mean block length
+	// (Stationary); Wild ignores it. Zero means automatic: AutoBlockLength
+	// of the full fit's residuals, its Circular value for MovingBlock and
+	// its Stationary value for Stationary.
+	BlockLength float64
+	// Draws is the number of replicates of the whole run (all shards);
+	// zero means DefaultDraws.
+	Draws int
+	// Seed determines the full fit's random starts and every replicate.
+	Seed uint64
+	// Shard selects the replicates this run computes; the zero value means
+	// all of them.
+	Shard Shard
+	// Workers is the number of replicates refitted in parallel (and of the
+	// full fit's starts); zero means 1.
+	Workers int
+	// Starts is the full fit's and the retry's multi-start count; zero
+	// means Design.Spec.Starts.
+	Starts int
+	// RefitEvaluations is the evaluation budget per start of each refit
+	// and retry (model.FitSettings.MaxEvaluations); zero means the model's
+	// default. The full fit always uses the default.
+	RefitEvaluations int
+	// Full is the full-data fit, if already made with the same Seed and
+	// Starts; nil means Run makes it.
+	Full *model.FitResult
+	// Progress, if not nil, is called after each replicate with the number
+	// done and the number this run computes. Calls come from one goroutine
+	// at a time, with done increasing.
+	Progress func(done, total int)
+}
+
+// Run computes the replicates of the shard. It returns ctx.Err() if the
+// context is cancelled before all replicates are done. The header of the
+// result has no tool version or input hashes: the caller, who knows the
+// files, sets Header.ToolVersion and Header.Inputs before writing.
+func (b *Bootstrap) Run(ctx context.Context) (*Draws, error) {
+	d := b.Design
+	if d == nil {
+		panic("uncertainty: Bootstrap without a design")
+	}
+	if len(b.Y) != d.N {
+		panic("uncertainty: Bootstrap: KPI length differs from the design")
+	}
+	method, err := ParseMethod(string(b.Method))
+	if err != nil {
+		return nil, err
+	}
+	draws := b.Draws
+	if draws == 0 {
+		draws = DefaultDraws
+	}
+	if draws < 0 {
+		return nil, fmt.Errorf("uncertainty: draws %d must be positive", draws)
+	}
+	if b.Shard.N != 0 && (b.Shard.K < 1 || b.Shard.K > b.Shard.N) {
+		return nil, fmt.Errorf("uncertainty: shard %d/%d: K must be between 1 and N", b.Shard.K, b.Shard.N)
+	}
+	if math.IsNaN(b.BlockLength) || math.IsInf(b.BlockLength, 0) || b.BlockLength < 0 {
+		return nil, fmt.Errorf("uncertainty: block length %g must be a positive number", b.BlockLength)
+	}
+	starts := b.Starts
+	if starts == 0 {
+		starts = d.Spec.Starts
+	}
+	workers := max(b.Workers, 1)
+	full := b.Full
+	if full == nil {
+		full, err = d.Fit(b.Y, model.FitSettings{Seed: b.Seed, Starts: starts, Workers: workers})
+		if err != nil {
+			return nil, fmt.Errorf("uncertainty: full-data fit: %w", err)
+		}
+	}
+	if !finiteParams(full.Params) {
+		return nil, errors.New("uncertainty: full-data fit has non-finite parameters")
+	}
+	bl, auto := b.BlockLength, false
+	switch {
+	case method == Wild:
+		bl = 0
+	case bl == 0:
+		auto = true
+		pw := AutoBlockLength(full.Residuals)
+		bl = pw.Circular
+		if method == Stationary {
+			bl = pw.Stationary
+		}
+	}
+	out := &Draws{Header: Header{
+		Format: FormatVersion, Seed: b.Seed, Method: method, BlockLength: bl, BlockLengthAuto: auto,
+		Draws: draws, Shard: b.Shard.String(), Model: NewModelInfo(d),
+		FullFit: FullFit{Params: full.Params.Clone(), SSE: full.SSE, Status: full.Status.String()},
+	}}
+	var mine []int
+	for i := range draws {
+		if b.Shard.Has(i) {
+			mine = append(mine, i)
+		}
+	}
+	out.Replicates = make([]Replicate, len(mine))
+	rf := refitter{d: d, full: full, res: Resampler{Method: method, BlockLength: bl}, seed: b.Seed,
+		starts: starts, evals: b.RefitEvaluations}
+
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	jobs := make(chan int)
+	done := make(chan int)
+	var wg sync.WaitGroup
+	for range min(workers, max(len(mine), 1)) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			ystar := make([]float64, d.N)
+			eb := make([]float64, d.N)
+			for pos := range jobs {
+				out.Replicates[pos] = rf.replicate(mine[pos], ystar, eb)
+				select {
+				case done <- pos:
+				case <-ctx.Done():
+					return
+				}
+			}
+		}()
+	}
+	go func() {
+		defer close(jobs)
+		for pos := range mine {
+			select {
+			case jobs <- pos:
+			case <-ctx.Done():
+				return
+			}
+		}
+	}()
+	go func() { wg.Wait(); close(done) }()
+	n := 0
+	for range done {
+		n++
+		if b.Progress != nil {
+			b.Progress(n, len(mine))
+		}
+	}
+	if n < len(mine) {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		panic("uncertainty: replicates lost")
+	}
+	return out, nil
+}
+
+// refitter builds and refits one replicate.
+type refitter struct {
+	d      *model.Design
+	full   *model.FitResult
+	res    Resampler
+	seed   uint64
+	starts int
+	evals  int
+}
+
+func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
+	rng := Stream(r.seed, i)
+	r.res.Residuals(eb, r.full.Residuals, rng)
+	for t, f := range r.full.Fitted {
+		ystar[t] = f + eb[t]
+	}
+	retrySeed := rng.Uint64()
+	warm := &r.full.Params
+	var why []string
+	for attempt := 1; attempt <= 3; attempt++ {
+		set := model.FitSettings{Warm: warm, MaxEvaluations: r.evals}
+		if attempt == 3 {
+			set.Seed, set.Starts = retrySeed, r.starts
+		}
+		fr, err := r.d.Fit(ystar, set)
+		switch {
+		case err != nil || !finiteParams(fr.Params):
+			if err != nil {
+				why = append(why, err.Error())
+			} else {
+				why = append(why, "non-finite parameters")
+			}
+			if attempt == 1 {
+				// Nothing to continue from: go on to the multi-start.
+				why = append(why, "skipped")
+				attempt++
+			}
+			continue
+		case fr.Status == varpro.Converged:
+			p := fr.Params.Clone()
+			return Replicate{Index: i, Params: &p, SSE: fr.SSE, Attempts: attempt}
+		}
+		why = append(why, fmt.Sprintf("%s at sse %.8g", fr.Status, fr.SSE))
+		// The next attempt starts where this one stopped: starting from
+		// the same point again would repeat it exactly.
+		warm = &fr.Params
+	}
+	return Replicate{Index: i, Failed: true, Reason: fmt.Sprintf("warm refit: %s; continued: %s; %d-start retry: %s",
+		why[0], why[1], r.starts, why[2])}
+}
+
+func finiteParams(p model.Params) bool {
+	ok := func(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+	for _, c := range p.Channels {
+		if !ok(c.Decay) || !ok(c.Peak) || !ok(c.HalfSat) || !ok(c.Shape) || !ok(c.Beta) {
+			return false
+		}
+	}
+	for _, v := range p.Fixed {
+		if !ok(v) {
+			return false
+		}
+	}
+	return true
+}
