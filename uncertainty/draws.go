@@ -9,7 +9,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"path/filepath"
 	"slices"
 	"strings"
 
@@ -487,9 +486,9 @@ func (e *MismatchError) Error() string {
 	switch e.What {
 	case "data", "spec":
 		return fmt.Sprintf("%s was made from %s with sha256 %s, not %s (%s); rerun sluice bootstrap",
-			filepath.Base(e.Draws), e.What, shortHash(e.Recorded), name, shortHash(e.Given))
+			e.Draws, e.What, shortHash(e.Recorded), name, shortHash(e.Given))
 	}
-	return fmt.Sprintf("%s was made with %s, not %s; rerun sluice bootstrap", filepath.Base(e.Draws), e.Recorded, e.Given)
+	return fmt.Sprintf("%s was made with %s, not %s; rerun sluice bootstrap", e.Draws, e.Recorded, e.Given)
 }
 
 func shortHash(h string) string {

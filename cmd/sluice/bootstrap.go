@@ -7,7 +7,6 @@ import (
 	"io"
 	"os"
 	"os/signal"
-	"path/filepath"
 	"strconv"
 	"strings"
 	"syscall"
@@ -242,14 +241,14 @@ func curvesCommand() *cli.Command {
 					named := *me
 					switch me.What {
 					case "data":
-						named.GivenName = filepath.Base(in.DataPath)
+						named.GivenName = in.DataPath
 					case "spec":
 						named.GivenName = "this spec"
 						if s := o.String("spec"); s != "" {
-							named.GivenName = filepath.Base(s)
+							named.GivenName = s
 						}
 					}
-					return withHint(&named, "pass the data, spec and model flags the draws were made with, or rerun sluice bootstrap")
+					return withHint(&named, "pass the --data, --spec and model flags the draws were made with")
 				}
 				return err
 			}
