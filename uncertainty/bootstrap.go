@@ -90,8 +90,8 @@ func (b *Bootstrap) Run(ctx context.Context) (*Draws, error) {
 	if draws == 0 {
 		draws = DefaultDraws
 	}
-	if draws < 0 {
-		return nil, fmt.Errorf("uncertainty: draws %d must be positive", draws)
+	if draws < 0 || draws > MaxDraws {
+		return nil, fmt.Errorf("uncertainty: draws %d must be between 1 and %d", draws, MaxDraws)
 	}
 	if b.Shard.N != 0 && (b.Shard.K < 1 || b.Shard.K > b.Shard.N) {
 		return nil, fmt.Errorf("uncertainty: shard %d/%d: K must be between 1 and N", b.Shard.K, b.Shard.N)
@@ -128,14 +128,12 @@ func (b *Bootstrap) Run(ctx context.Context) (*Draws, error) {
 	}
 	out := &Draws{Header: Header{
 		Format: FormatVersion, Seed: b.Seed, Method: method, BlockLength: bl, BlockLengthAuto: auto,
-		Draws: draws, Shard: b.Shard.String(), Model: NewModelInfo(d),
+		Draws: draws, Shard: b.Shard.String(), Model: NewModelInfo(d, starts),
 		FullFit: FullFit{Params: full.Params.Clone(), SSE: full.SSE, Status: full.Status.String()},
 	}}
-	var mine []int
-	for i := range draws {
-		if b.Shard.Has(i) {
-			mine = append(mine, i)
-		}
+	mine := make([]int, 0, shardSize(b.Shard, draws))
+	for i := nextInShard(b.Shard, 0); i < draws; i = nextInShard(b.Shard, i+1) {
+		mine = append(mine, i)
 	}
 	out.Replicates = make([]Replicate, len(mine))
 	rf := refitter{d: d, full: full, res: Resampler{Method: method, BlockLength: bl}, seed: b.Seed,

@@ -220,7 +220,7 @@ func TestBootstrapSettingsErrors(t *testing.T) {
 		want string
 	}{
 		{Bootstrap{Method: "circular"}, "unknown resampling method"},
-		{Bootstrap{Draws: -1}, "draws -1 must be positive"},
+		{Bootstrap{Draws: -1}, "draws -1 must be between 1 and"},
 		{Bootstrap{Shard: Shard{K: 3, N: 2}}, "shard 3/2"},
 		{Bootstrap{BlockLength: -2}, "block length -2"},
 	} {

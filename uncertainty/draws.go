@@ -19,6 +19,10 @@ import (
 // of the header's "sluice_draws" key. DRAWS.md documents the format.
 const FormatVersion = 1
 
+// MaxDraws bounds the replicates of a run, so that a corrupt header cannot
+// make a reader allocate without limit.
+const MaxDraws = 10_000_000
+
 // Draws is a bootstrap run: its header and one fitted model (or a recorded
 // failure) per replicate, in increasing index.
 type Draws struct {
@@ -123,10 +127,14 @@ func (r Replicate) MarshalJSON() ([]byte, error) {
 	return json.Marshal(okLine{Index: r.Index, Params: r.Params, SSE: r.SSE, Attempts: r.Attempts})
 }
 
-// NewModelInfo describes the design's model structure.
-func NewModelInfo(d *model.Design) ModelInfo {
+// NewModelInfo describes the design's model structure, with the multi-start
+// count of the run (0 means the spec's).
+func NewModelInfo(d *model.Design, starts int) ModelInfo {
 	mi := specInfo(d.Spec)
 	mi.Weeks = d.N
+	if starts != 0 {
+		mi.Starts = starts
+	}
 	for k := range mi.Channels {
 		mi.Channels[k].MeanSpend = d.MeanSpend[k]
 	}
@@ -292,13 +300,7 @@ func ParseDraws(r io.Reader, name string) (*Draws, error) {
 		return nil, bad("%v", err)
 	}
 	h := &d.Header
-	next := 0 // the next index the shard should hold
-	advance := func() {
-		for next < h.Draws && !shard.Has(next) {
-			next++
-		}
-	}
-	advance()
+	next := nextInShard(shard, 0) // the next index the shard should hold
 	for {
 		lineNo++
 		b, err := readLine()
@@ -355,8 +357,7 @@ func ParseDraws(r io.Reader, name string) (*Draws, error) {
 			rep.Params, rep.SSE, rep.Attempts = raw.Params, *raw.SSE, *raw.Attempts
 		}
 		d.Replicates = append(d.Replicates, rep)
-		next++
-		advance()
+		next = nextInShard(shard, next+1)
 	}
 	if next < h.Draws {
 		want := shardSize(shard, h.Draws)
@@ -366,14 +367,27 @@ func ParseDraws(r io.Reader, name string) (*Draws, error) {
 	return d, nil
 }
 
-func shardSize(s Shard, draws int) int {
-	n := 0
-	for i := range draws {
-		if s.Has(i) {
-			n++
-		}
+// nextInShard returns the smallest replicate index >= i of shard s.
+func nextInShard(s Shard, i int) int {
+	if s.N <= 1 {
+		return i
 	}
-	return n
+	r := s.K - 1
+	if i <= r {
+		return r
+	}
+	return r + (i-r+s.N-1)/s.N*s.N
+}
+
+// shardSize is the number of replicates of shard s in a run of draws.
+func shardSize(s Shard, draws int) int {
+	if s.N <= 1 {
+		return draws
+	}
+	if draws <= s.K-1 {
+		return 0
+	}
+	return (draws - s.K + s.N) / s.N
 }
 
 // jsonMessage shortens encoding/json errors to what a user can act on.
@@ -393,8 +407,8 @@ func jsonMessage(err error) string {
 }
 
 func checkHeader(h *Header) (Shard, error) {
-	if h.Draws < 1 {
-		return Shard{}, fmt.Errorf("draws %d must be at least 1", h.Draws)
+	if h.Draws < 1 || h.Draws > MaxDraws {
+		return Shard{}, fmt.Errorf("draws %d must be between 1 and %d", h.Draws, MaxDraws)
 	}
 	shard, err := ParseShard(h.Shard)
 	if err != nil {

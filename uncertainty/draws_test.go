@@ -91,6 +91,7 @@ func TestParseDrawsErrors(t *testing.T) {
 		{"not json", "hello\n", "tiny.jsonl:1: not a draws file"},
 		{"newer format", strings.Replace(good, `"sluice_draws":1`, `"sluice_draws":2`, 1), "tiny.jsonl:1: draws format version 2; this sluice reads version 1"},
 		{"unknown key", strings.Replace(header, `"seed":9`, `"seed":9,"colour":"red"`, 1) + r0 + r1 + r2, `tiny.jsonl:1: unknown field "colour"`},
+		{"huge run", strings.Replace(good, `"draws":3`, `"draws":99999999999`, 1), "tiny.jsonl:1: draws 99999999999 must be between 1 and 10000000"},
 		{"bad shard", strings.Replace(good, `"shard":"1/1"`, `"shard":"4/3"`, 1), "tiny.jsonl:1: uncertainty: shard \"4/3\""},
 		{"bad method", strings.Replace(good, `"method":"block"`, `"method":"jackknife"`, 1), `tiny.jsonl:1: method "jackknife"`},
 		{"missing replicate", header + r0 + r2, "tiny.jsonl:3: replicate 1 is missing (index 2 follows)"},

@@ -1,6 +1,7 @@
 package uncertainty
 
 import (
+	"slices"
 	"strings"
 	"testing"
 )
@@ -112,4 +113,25 @@ func FuzzParseMethod(f *testing.F) {
 			t.Fatalf("ParseMethod(%q) again = %q, %v", m, again, err)
 		}
 	})
+}
+
+// nextInShard and shardSize agree with counting Has over the indices.
+func TestShardArithmetic(t *testing.T) {
+	for _, s := range []Shard{{}, {1, 1}, {1, 2}, {2, 2}, {3, 7}, {7, 7}, {5, 9}} {
+		for draws := range 30 {
+			var want []int
+			for i := range draws {
+				if s.Has(i) {
+					want = append(want, i)
+				}
+			}
+			var got []int
+			for i := nextInShard(s, 0); i < draws; i = nextInShard(s, i+1) {
+				got = append(got, i)
+			}
+			if !slices.Equal(got, want) || shardSize(s, draws) != len(want) {
+				t.Errorf("%v, %d draws: walk %v size %d, want %v", s, draws, got, shardSize(s, draws), want)
+			}
+		}
+	}
 }
