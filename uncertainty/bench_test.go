@@ -106,3 +106,41 @@ func BenchmarkRefits(b *testing.B) {
 		}
 	}
 }
+
+// Cost of one objective evaluation of a warm refit (the Jacobian step
+// included) as weeks and channels grow: each op is one refit of a fixed
+// resampled KPI with a budget of 25 evaluations.
+func BenchmarkRefitEvaluation(b *testing.B) {
+	for _, size := range [][2]int{{156, 6}, {312, 6}, {156, 12}, {312, 12}} {
+		tr := benchTruth(size[0], size[1])
+		sim, err := model.Simulate(tr)
+		if err != nil {
+			b.Fatal(err)
+		}
+		d, err := model.NewDesign(sim.Panel, tr.Spec())
+		if err != nil {
+			b.Fatal(err)
+		}
+		full, err := d.Fit(sim.Panel.KPI, model.FitSettings{Seed: 1, Workers: 2})
+		if err != nil {
+			b.Fatal(err)
+		}
+		e := Resampler{BlockLength: 3}.Residuals(make([]float64, d.N), full.Residuals, Stream(1, 0))
+		for t := range e {
+			e[t] += full.Fitted[t]
+		}
+		b.Run(fmt.Sprintf("weeks=%d/channels=%d", size[0], size[1]), func(b *testing.B) {
+			b.ReportAllocs()
+			evals := 0
+			for b.Loop() {
+				fr, err := d.Fit(e, model.FitSettings{Warm: &full.Params, MaxEvaluations: 25})
+				if err != nil {
+					b.Fatal(err)
+				}
+				evals += fr.Evaluations
+			}
+			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(evals)/1e6, "ms/eval")
+			b.ReportMetric(float64(evals)/float64(b.N), "evals/op")
+		})
+	}
+}
