@@ -229,15 +229,23 @@ func (a *activeSet) factorSolve(checkLast bool) bool {
 // convention: dividing by u₀ rather than multiplying small numbers keeps it
 // free of underflow). ok is false when v is zero.
 func householder(v []float64) (beta, tau float64, ok bool) {
-	nrm := norm2(v)
+	nrm := fastNorm(v)
 	if nrm == 0 {
 		return 0, 0, false
 	}
 	beta = -math.Copysign(nrm, v[0])
 	u0 := v[0] - beta
 	tau = -u0 / beta
-	for i := 1; i < len(v); i++ {
-		v[i] /= u0
+	if math.Abs(u0) > 0x1p-1000 {
+		// |v_i| ≤ |u₀|, so the reciprocal is finite and the products ≤ 1.
+		inv := 1 / u0
+		for i := 1; i < len(v); i++ {
+			v[i] *= inv
+		}
+	} else {
+		for i := 1; i < len(v); i++ {
+			v[i] /= u0
+		}
 	}
 	v[0] = 1
 	return beta, tau, true

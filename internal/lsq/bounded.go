@@ -4,8 +4,7 @@ import (
 	"fmt"
 	"math"
 
-	"gonum.org/v1/gonum/blas/blas64"
-	"gonum.org/v1/gonum/lapack/lapack64"
+	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -49,9 +48,7 @@ func BoundedLS(a *mat.Dense, b []float64, nonneg []bool) (x []float64, rnorm flo
 // repeated solves of one shape do not allocate. The zero value is ready to
 // use. A BoundedSolver must not be used by several goroutines at once.
 type BoundedSolver struct {
-	w     []float64 // m×(n+1) row-major: [free | nonneg | b], then its QR
-	tau   []float64
-	work  []float64
+	w     []float64 // m×(n+1) column-major: [free | nonneg | b], then its R
 	perm  []int
 	norms []float64 // column norms of w before the QR
 	xp    []float64 // solution in permuted order
@@ -90,49 +87,50 @@ func (s *BoundedSolver) Solve(x []float64, a *mat.Dense, b []float64, nonneg []b
 	}
 	ld := n + 1
 	s.w = grow(s.w, m*ld)
-	s.norms = grow(s.norms, ld)
-	clear(s.norms)
 	raw := a.RawMatrix()
 	for i := 0; i < m; i++ {
 		row := raw.Data[i*raw.Stride : i*raw.Stride+n]
-		dst := s.w[i*ld : (i+1)*ld]
 		for k, j := range s.perm {
-			v := row[j]
-			dst[k] = v
-			s.norms[k] += v * v
+			s.w[k*m+i] = row[j]
 		}
-		dst[n] = b[i]
-		s.norms[n] += b[i] * b[i]
+		s.w[n*m+i] = b[i]
 	}
-	for k := range s.norms {
-		ss := s.norms[k]
-		if math.IsNaN(ss) || math.IsInf(ss, 0) || ss < 0x1p-900 {
-			// Non-finite data, or a sum of squares that over- or
-			// underflowed: find out which by scanning the column.
-			for i := 0; i < m; i++ {
-				if v := s.w[i*ld+k]; math.IsNaN(v) || math.IsInf(v, 0) {
+	s.norms = grow(s.norms, ld)
+	for k := 0; k < ld; k++ {
+		col := s.w[k*m : (k+1)*m]
+		nrm := fastNorm(col)
+		if math.IsNaN(nrm) || math.IsInf(nrm, 0) {
+			for i, v := range col {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
 					if k == n {
 						return x, math.NaN(), fmt.Errorf("%w: b[%d] = %v", ErrNotFinite, i, v)
 					}
 					return x, math.NaN(), fmt.Errorf("%w: a[%d,%d] = %v", ErrNotFinite, i, s.perm[k], v)
 				}
 			}
-			s.norms[k] = stridedNorm(s.w[k:], m, ld)
-			continue
 		}
-		s.norms[k] = math.Sqrt(ss)
+		s.norms[k] = nrm
 	}
 
+	// Householder QR of the whole block, column by column; R overwrites
+	// the upper triangle (the diagonal holds β), reflectors are discarded.
 	kq := min(m, ld)
-	s.tau = grow(s.tau, kq)
-	s.work = grow(s.work, ld)
-	// With lwork = n+1 Dgeqrf runs the unblocked Householder QR (Dgeqr2),
-	// which is what these narrow matrices want.
-	lapack64.Geqrf(blas64.General{Rows: m, Cols: ld, Stride: ld, Data: s.w}, s.tau, s.work, ld)
+	for k := 0; k < kq; k++ {
+		v := s.w[k*m+k : (k+1)*m]
+		beta, tau, ok := householder(v)
+		if ok {
+			for l := k + 1; l < ld; l++ {
+				y := s.w[l*m+k : (l+1)*m]
+				d := tau * floats.Dot(v, y)
+				floats.AddScaled(y, -d, v)
+			}
+		}
+		v[0] = beta
+	}
 
 	tolR := rankTol(m, n)
 	for k := 0; k < nf; k++ {
-		if k >= m || math.Abs(s.w[k*ld+k]) <= tolR*s.norms[k] {
+		if k >= m || math.Abs(s.w[k*m+k]) <= tolR*s.norms[k] {
 			return x, math.NaN(), fmt.Errorf("%w: free column %d is a combination of the free columns before it", ErrRankDeficient, s.perm[k])
 		}
 	}
@@ -150,15 +148,15 @@ func (s *BoundedSolver) Solve(x []float64, a *mat.Dense, b []float64, nonneg []b
 		for ib := range dst {
 			row := nf + ib
 			if row <= col {
-				dst[ib] = s.w[row*ld+col]
+				dst[ib] = s.w[col*m+row]
 			} else {
-				dst[ib] = 0 // below the diagonal Dgeqrf keeps reflectors
+				dst[ib] = 0 // below the diagonal are the reflectors
 			}
 		}
 		as.colScale[jb] = s.norms[col]
 	}
 	for ib := 0; ib < rows; ib++ {
-		as.z[ib] = s.w[(nf+ib)*ld+n]
+		as.z[ib] = s.w[n*m+nf+ib]
 	}
 	as.zScale = s.norms[n]
 	as.tolW = dualTol(m, n)
@@ -168,12 +166,11 @@ func (s *BoundedSolver) Solve(x []float64, a *mat.Dense, b []float64, nonneg []b
 	s.xp = grow(s.xp, n)
 	copy(s.xp[nf:], as.x[:nb])
 	for k := nf - 1; k >= 0; k-- {
-		rk := s.w[k*ld : k*ld+ld]
-		v := rk[n]
+		v := s.w[n*m+k]
 		for l := k + 1; l < n; l++ {
-			v -= rk[l] * s.xp[l]
+			v -= s.w[l*m+k] * s.xp[l]
 		}
-		s.xp[k] = v / rk[k]
+		s.xp[k] = v / s.w[k*m+k]
 	}
 	for k, j := range s.perm {
 		x[j] = s.xp[k]
@@ -181,21 +178,19 @@ func (s *BoundedSolver) Solve(x []float64, a *mat.Dense, b []float64, nonneg []b
 	return x, rnorm, err
 }
 
-// stridedNorm is norm2 of v[0], v[ld], ..., v[(m-1)·ld].
-func stridedNorm(v []float64, m, ld int) float64 {
-	var scale, ssq float64 = 0, 1
-	for i := 0; i < m; i++ {
-		x := v[i*ld]
-		if x == 0 {
-			continue
-		}
-		ax := math.Abs(x)
-		if scale < ax {
-			ssq = 1 + ssq*(scale/ax)*(scale/ax)
-			scale = ax
-		} else {
-			ssq += (ax / scale) * (ax / scale)
-		}
+// fastNorm is the Euclidean norm by a plain sum of squares, falling back to
+// the scaled norm2 when that sum over- or underflows. It is NaN or ±Inf for
+// non-finite input.
+func fastNorm(v []float64) float64 {
+	var ss float64
+	for _, x := range v {
+		ss += x * x
 	}
-	return scale * math.Sqrt(ssq)
+	if ss > 0x1p-900 && ss < 0x1p900 {
+		return math.Sqrt(ss)
+	}
+	if math.IsNaN(ss) {
+		return ss
+	}
+	return norm2(v)
 }

@@ -38,8 +38,10 @@ func OLS(a *mat.Dense, b []float64, intercept bool) (OLSResult, error) {
 		return OLSResult{}, err
 	}
 	for i := 0; i < m; i++ {
-		if err := checkFinite(fmt.Sprintf("a[%d]", i), a.RawRowView(i)); err != nil {
-			return OLSResult{}, err
+		for j, v := range a.RawRowView(i) {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return OLSResult{}, fmt.Errorf("%w: a[%d,%d] = %v", ErrNotFinite, i, j, v)
+			}
 		}
 	}
 	if m < n {

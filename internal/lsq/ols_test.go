@@ -232,3 +232,24 @@ func TestNotFinite(t *testing.T) {
 		t.Errorf("NNLSGram: err = %v", err)
 	}
 }
+
+// TestOLSExactlyDetermined fits the line through the first two Norris
+// points: slope and intercept are the two-point formulas, RSS is zero and,
+// with no residual degrees of freedom, the standard errors are undefined
+// (NaN).
+func TestOLSExactlyDetermined(t *testing.T) {
+	d := loadNIST(t, "nist_norris.json", "x")
+	a := d.a.Slice(0, 2, 0, 2).(*mat.Dense)
+	x1, x2, y1, y2 := a.At(0, 1), a.At(1, 1), d.Y[0], d.Y[1]
+	slope := (y2 - y1) / (x2 - x1)
+	res, err := OLS(a, d.Y[:2], true)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(res.Coef[1]-slope) > 1e-14*math.Abs(slope) || math.Abs(res.Coef[0]-(y1-slope*x1)) > 1e-12 {
+		t.Errorf("coef = %v, want (%g, %g)", res.Coef, y1-slope*x1, slope)
+	}
+	if res.DF != 0 || res.RSS > 1e-24 || !math.IsNaN(res.ResidualSD) || !math.IsNaN(res.StdErr[0]) {
+		t.Errorf("DF %d, RSS %g, ResidualSD %g, StdErr %v", res.DF, res.RSS, res.ResidualSD, res.StdErr)
+	}
+}
