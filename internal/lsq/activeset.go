@@ -7,8 +7,8 @@ import "math"
 // Squares Problems, ch. 23, algorithm NNLS). M is rows×cols, column-major.
 // The callers reduce the user's problem to this one by an orthogonal
 // transformation first, so rows ≤ cols+1 and every passive subproblem is a
-// QR of a tiny matrix, refactored from scratch (cheaper than updating at
-// these sizes).
+// QR of a tiny matrix, refactored from scratch each time (simpler than
+// updating the factor, and cheap at these sizes).
 //
 // The two safeguards of the original NNLS code are kept: a column enters the
 // passive set only if it is numerically independent of the passive columns
@@ -23,7 +23,7 @@ type activeSet struct {
 	tolW       float64   // relative dual tolerance
 	tolR       float64   // relative independence tolerance
 
-	x, s, w  []float64 // cols: iterate, trial solution, dual Mᵀ(z − M x)
+	x, w     []float64 // cols: iterate, dual Mᵀ(z − M x)
 	res      []float64 // rows
 	passive  []bool
 	rejected []bool
@@ -40,7 +40,6 @@ func (a *activeSet) reset(rows, cols int) {
 	a.z = grow(a.z, rows)
 	a.colScale = grow(a.colScale, cols)
 	a.x = grow(a.x, cols)
-	a.s = grow(a.s, cols)
 	a.w = grow(a.w, cols)
 	a.res = grow(a.res, rows)
 	a.passive = growBool(a.passive, cols)

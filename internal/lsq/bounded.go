@@ -3,6 +3,7 @@ package lsq
 import (
 	"fmt"
 	"math"
+	"sync"
 
 	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
@@ -15,17 +16,16 @@ import (
 // by the Lawson–Hanson active-set method, each passive subproblem solved by
 // Householder QR. It returns x and the residual norm ‖A x − b‖₂. A may have
 // dependent columns and fewer rows than columns; x is then one of the
-// minimisers (A x is unique). It allocates; use a BoundedSolver to reuse
-// storage across calls.
+// minimisers (A x is unique). It allocates x; a BoundedSolver also reuses x.
 func NNLS(a *mat.Dense, b []float64) (x []float64, rnorm float64, err error) {
-	_, n := a.Dims()
-	nonneg := make([]bool, n)
-	for j := range nonneg {
-		nonneg[j] = true
-	}
-	var s BoundedSolver
-	return s.Solve(nil, a, b, nonneg)
+	s := boundedPool.Get().(*BoundedSolver)
+	defer boundedPool.Put(s)
+	return s.solve(nil, a, b, nil, true)
 }
+
+// boundedPool holds workspaces for NNLS and BoundedLS, so that the
+// convenience functions allocate only the x they return.
+var boundedPool = sync.Pool{New: func() any { return new(BoundedSolver) }}
 
 // BoundedLS solves
 //
@@ -37,11 +37,14 @@ func NNLS(a *mat.Dense, b []float64) (x []float64, rnorm float64, err error) {
 // QR has already reduced to at most n+1 rows, and the free coefficients
 // follow by back substitution. The free columns must have full column rank
 // (else ErrRankDeficient); the non-negative ones may be dependent. It
-// returns x and ‖A x − b‖₂. It allocates; use a BoundedSolver to reuse
-// storage across calls.
+// returns x and ‖A x − b‖₂. It allocates x; a BoundedSolver also reuses x.
 func BoundedLS(a *mat.Dense, b []float64, nonneg []bool) (x []float64, rnorm float64, err error) {
-	var s BoundedSolver
-	return s.Solve(nil, a, b, nonneg)
+	if _, n := a.Dims(); len(nonneg) != n {
+		panic("lsq: len(nonneg) != columns of a")
+	}
+	s := boundedPool.Get().(*BoundedSolver)
+	defer boundedPool.Put(s)
+	return s.solve(nil, a, b, nonneg, false)
 }
 
 // BoundedSolver solves the problem of BoundedLS, keeping its workspace so
@@ -59,12 +62,17 @@ type BoundedSolver struct {
 // returns it with the residual norm. len(b) must be the number of rows of a
 // and len(nonneg) its number of columns.
 func (s *BoundedSolver) Solve(x []float64, a *mat.Dense, b []float64, nonneg []bool) ([]float64, float64, error) {
+	if _, n := a.Dims(); len(nonneg) != n {
+		panic("lsq: len(nonneg) != columns of a")
+	}
+	return s.solve(x, a, b, nonneg, false)
+}
+
+// solve is Solve; allNonneg stands for a nonneg that is all true.
+func (s *BoundedSolver) solve(x []float64, a *mat.Dense, b []float64, nonneg []bool, allNonneg bool) ([]float64, float64, error) {
 	m, n := a.Dims()
 	if len(b) != m {
 		panic("lsq: len(b) != rows of a")
-	}
-	if len(nonneg) != n {
-		panic("lsq: len(nonneg) != columns of a")
 	}
 	if x == nil {
 		x = make([]float64, n)
@@ -74,14 +82,16 @@ func (s *BoundedSolver) Solve(x []float64, a *mat.Dense, b []float64, nonneg []b
 
 	// Free columns first, then the non-negative ones, then b.
 	s.perm = s.perm[:0]
-	for j, nn := range nonneg {
-		if !nn {
-			s.perm = append(s.perm, j)
+	if !allNonneg {
+		for j, nn := range nonneg {
+			if !nn {
+				s.perm = append(s.perm, j)
+			}
 		}
 	}
 	nf := len(s.perm)
-	for j, nn := range nonneg {
-		if nn {
+	for j := 0; j < n; j++ {
+		if allNonneg || nonneg[j] {
 			s.perm = append(s.perm, j)
 		}
 	}

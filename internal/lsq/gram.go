@@ -3,6 +3,7 @@ package lsq
 import (
 	"fmt"
 	"math"
+	"sync"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -28,11 +29,14 @@ const gramDualTol = 1e-12
 
 // NNLSGram solves min ‖A x − b‖₂ subject to x ≥ 0 given only G = AᵀA and
 // c = Aᵀb, writing x into dst (len k, or nil to allocate) and returning it.
-// See GramSolver for the method; this allocates a fresh workspace.
+// See GramSolver for the method; the workspace comes from a pool.
 func NNLSGram(dst []float64, g *mat.SymDense, c []float64) ([]float64, error) {
-	var s GramSolver
+	s := gramPool.Get().(*GramSolver)
+	defer gramPool.Put(s)
 	return s.Solve(dst, g, c)
 }
+
+var gramPool = sync.Pool{New: func() any { return new(GramSolver) }}
 
 // GramSolver solves the NNLS problem from its normal-equation data, for the
 // fit's inner loop where k (the number of media channels) is small and G and
