@@ -88,6 +88,8 @@ func newApp(stdout, stderr io.Writer) *cli.App {
 			fitCommand(),
 			simulateCommand(),
 			demoCommand(),
+			keygenCommand(),
+			signCommand(),
 		},
 	}
 }
