@@ -55,6 +55,10 @@ type Design struct {
 	Fixed     *mat.Dense  // n×p fixed columns
 	MeanSpend []float64
 	N         int
+	// TrendScale is the divisor of the week index in the trend column
+	// (weeks of the full data minus one), kept by Head and Forecast so the
+	// trend means the same everywhere.
+	TrendScale float64
 }
 
 // NewDesign checks the panel against the spec and builds the fixed columns.
@@ -62,7 +66,6 @@ func NewDesign(p *Panel, spec Spec) (*Design, error) {
 	if err := spec.Validate("spec"); err != nil {
 		return nil, err
 	}
-	n := p.NumWeeks()
 	if len(spec.Channels) != len(p.Channels) {
 		panic("model: spec and panel channel counts differ")
 	}
@@ -70,16 +73,18 @@ func NewDesign(p *Panel, spec Spec) (*Design, error) {
 	if err := p.RequireWeeks(need, fmt.Sprintf("the model has %d parameters", spec.NumParams())); err != nil {
 		return nil, err
 	}
-	d := &Design{Spec: spec, N: n, Spend: p.Spend, MeanSpend: make([]float64, len(p.Channels))}
+	return buildDesign(p, spec), nil
+}
+
+// buildDesign computes mean spend and the fixed columns without checks.
+func buildDesign(p *Panel, spec Spec) *Design {
+	n := p.NumWeeks()
+	d := &Design{Spec: spec, N: n, Spend: p.Spend, MeanSpend: make([]float64, len(p.Channels)), TrendScale: float64(max(n-1, 1))}
 	for k, x := range p.Spend {
-		var s float64
-		for _, v := range x {
-			s += v
-		}
-		d.MeanSpend[k] = s / float64(n)
+		d.MeanSpend[k] = meanOf(x)
 	}
 	d.Fixed = fixedColumns(p, spec)
-	return d, nil
+	return d
 }
 
 // fixedColumns builds intercept, trend (t/(n−1), from 0 to 1), Fourier terms
@@ -494,7 +499,7 @@ func (d *Design) Head(n int) *Design {
 	if n < 1 || n > d.N {
 		panic("model: head length out of range")
 	}
-	h := &Design{Spec: d.Spec, N: n, MeanSpend: d.MeanSpend, Spend: make([][]float64, len(d.Spend))}
+	h := &Design{Spec: d.Spec, N: n, MeanSpend: d.MeanSpend, TrendScale: d.TrendScale, Spend: make([][]float64, len(d.Spend))}
 	for k, x := range d.Spend {
 		h.Spend[k] = x[:n:n]
 	}
