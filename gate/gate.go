@@ -218,10 +218,13 @@ func Run(r Review, s Settings) (*Decision, error) {
 			d.Reasons = append(d.Reasons, fmt.Sprintf("the proposal as a whole %s", clauses(proposalBreaks, r.Economics.Horizon, proposedRisk)))
 		}
 		approved = downsize(ev, r, d, delta, held, caps, steps, s)
-		if m := moved(approved, c); m == 0 || m < minMove {
+		switch m := moved(approved, c); {
+		case m == 0:
+			refused = "no step of the proposal meets the policy"
+		case m < minMove:
 			refused = fmt.Sprintf("the largest plan that meets the policy moves %s, less than the %s the policy counts as a meaningful move",
 				perWeek(m), perWeek(minMove))
-		} else {
+		default:
 			d.Verdict = Downsize
 		}
 	}
@@ -331,6 +334,9 @@ func matchSides(a []float64, up, down float64) (side int, f float64) {
 		}
 	}
 	ratio := down / up
+	if math.Abs(aDown-ratio*aUp) <= 1e-12*max(aDown, ratio*aUp) {
+		return 0, 1 // matched up to rounding
+	}
 	switch {
 	case aDown > ratio*aUp:
 		side, f = -1, ratio*aUp/aDown
