@@ -44,9 +44,14 @@ func BenchmarkRun1000x12(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	b.Logf("verdict %s, plan scale %.3f", d.Verdict, d.PlanScale)
+	steps := 0
 	for _, m := range d.Moves {
-		b.Logf("%s %.0f→%.0f approved %.0f step %.4f", m.Channel, m.Current, m.Proposed, m.Approved, m.SafeStep)
+		if m.SafeStep < 1 {
+			steps++
+		}
+	}
+	if d.Verdict != Downsize || steps < 6 {
+		b.Fatalf("benchmark problem changed: verdict %s, %d steps short of the proposal", d.Verdict, steps)
 	}
 	b.ResetTimer()
 	for b.Loop() {

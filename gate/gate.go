@@ -18,10 +18,15 @@
 // channel's funding never pushes another channel past its guard and a cap
 // on one channel does not shrink the steps of channels it does not fund.
 //
-// Steps are searched on a grid and bisected (Settings); the gain need not be
-// monotone in the step, so the grid is scanned from the full step down and
-// the bracket between the last passing and the first failing point above it
-// is bisected until it is narrower than Settings.Tolerance.
+// Steps are searched on a grid, then narrowed (Settings): the gain need not
+// be monotone in the step, so the grid is scanned from the full step down
+// and the bracket between the last passing and the first failing point above
+// it is narrowed — by bisection accelerated with false position on the
+// limits' slack — until it is narrower than Settings.Tolerance (1e-4 in τ by
+// default): the step reported passes, and the end of its bracket, at most
+// the tolerance further, fails. Gains are evaluated with Economics.Gains;
+// a probe that is certain to fail stops early (see passes), which changes no
+// answer.
 package gate
 
 import (
