@@ -81,7 +81,6 @@ func DrawSpread(d *model.Design, fit *model.FitResult, draws Draws, breakEven fl
 	return r, nil
 }
 
-
 // Checks grades the result, two checks per channel.
 func (r *DrawsResult) Checks(th Thresholds) []Check {
 	var out []Check
