@@ -80,7 +80,9 @@ type Thresholds struct {
 	DecayBounds Limit `json:"decay_bounds" yaml:"decay_bounds"`
 	// DriftZ: |ROI first half − ROI second half| over the SD of that
 	// difference on panels simulated from the fit (so without drift).
-	// Default {2, 3}.
+	// Default {2.5, 3.5}: with the SD estimated from 20 panels, the
+	// two-sided tail of Student's t with 19 degrees of freedom beyond them
+	// is 2.2% and 0.24% (scipy.stats.t).
 	DriftZ Limit `json:"drift_z" yaml:"drift_z"`
 	// DriftRelative: the relative ROI difference of the halves, used when
 	// no spread is known. Default {0.30, 0.50}.
@@ -94,14 +96,14 @@ type Thresholds struct {
 	// default 1 (currency per currency, before margins).
 	BreakEven float64 `json:"break_even" yaml:"break_even"`
 
-	// LiftZ: |model − measured| / √(se² + model_se²). Default {1.5, 2};
-	// 2 is about the two-sided 95% point of the normal distribution.
+	// LiftZ: |model − measured| / √(se² + model_se²). Default {1.5, 2}:
+	// the normal distribution's two-sided tail beyond them is 13% and 4.6%.
 	LiftZ Limit `json:"lift_z" yaml:"lift_z"`
 
 	// Coverage: share of reconciled weeks whose actual KPI lies inside the
-	// forecast's 5%–95% band; smaller is worse. Default {0.75, 0.60}: for
-	// 13 weeks at the nominal 90% these are about the 3% and 0.2% binomial
-	// tail points (9 and 7 of 13 weeks covered).
+	// forecast's 5%–95% band; smaller is worse. Default {0.75, 0.60}: with
+	// 13 weeks at the nominal 90%, covering 9 or fewer has binomial
+	// probability 3.4%, 7 or fewer 0.09% (scipy.stats.binom).
 	Coverage Limit `json:"coverage" yaml:"coverage"`
 	// ReconcileBias: |mean(actual − re-forecast)| / mean actual.
 	// Default {0.05, 0.10}.
@@ -121,7 +123,7 @@ func DefaultThresholds() Thresholds {
 		RecoveryBias:   Limit{0.15, 0.30},
 		QuarterOut:     Limit{0.25, 0.50},
 		DecayBounds:    Limit{0.15, 0.30},
-		DriftZ:         Limit{2, 3},
+		DriftZ:         Limit{2.5, 3.5},
 		DriftRelative:  Limit{0.30, 0.50},
 		ROICV:          Limit{0.30, 0.50},
 		BreakEvenFlip:  Limit{0.10, 0.25},
