@@ -92,10 +92,13 @@ type BacktestResult struct {
 	Skill                 float64 // 1 − WMAPE(model)/WMAPE(baseline)
 	Forecast, Actual      []float64
 	Folds                 []Fold
-	// Short is set when the panel is too short for a holdout: the model
-	// needs MinTrain weeks to be fitted and HoldoutWeeks to be tested.
+	// Short is set when the holdout cannot be judged: the model needs
+	// MinTrain weeks to be fitted and HoldoutWeeks to be tested, and fixed
+	// columns that are not linearly dependent on the training weeks (a
+	// control that only starts later is constant there); Reason says which.
 	Short    bool
 	MinTrain int
+	Reason   string
 }
 
 // Backtest fits the model without the last HoldoutWeeks weeks, forecasts
@@ -112,9 +115,14 @@ func Backtest(d *model.Design, y []float64, set Settings) (*BacktestResult, erro
 	nTrain := d.N - h
 	if nTrain < r.MinTrain {
 		r.Short = true
+		r.Reason = fmt.Sprintf("a holdout of %d weeks needs at least %d weeks before it to fit the model", h, r.MinTrain)
 		return r, nil
 	}
 	r.TrainWeeks = nTrain
+	if err := fixedIndependent(d, nTrain); err != nil {
+		r.Short, r.Reason = true, err.Error()
+		return r, nil
+	}
 	fit, err := fitHead(d, y, nTrain, set)
 	if err != nil {
 		return nil, fmt.Errorf("holdout fit on the first %d weeks: %w", nTrain, err)
@@ -132,7 +140,7 @@ func Backtest(d *model.Design, y []float64, set Settings) (*BacktestResult, erro
 	r.Skill = 1 - r.Model.WMAPE/r.Baseline.WMAPE
 	for i := range set.Folds {
 		origin := d.N - (set.Folds-i)*set.FoldWeeks
-		if origin < r.MinTrain {
+		if origin < r.MinTrain || fixedIndependent(d, origin) != nil {
 			continue
 		}
 		var pred []float64
@@ -161,6 +169,24 @@ func fitHead(d *model.Design, y []float64, n int, set Settings) (*model.FitResul
 	return d.Head(n).Fit(y[:n], model.FitSettings{Seed: set.Seed, Workers: set.Workers})
 }
 
+// fixedIndependent reports an error when the fixed columns are linearly
+// dependent on the first n weeks (the test varpro applies), which a fit
+// there could not get past.
+func fixedIndependent(d *model.Design, n int) error {
+	_, p := d.Fixed.Dims()
+	var qr mat.QR
+	qr.Factorize(d.Fixed.Slice(0, n, 0, p))
+	var rr mat.Dense
+	qr.RTo(&rr)
+	names := d.Spec.FixedNames()
+	for i := range p {
+		if math.Abs(rr.At(i, i)) < 1e-12*math.Abs(rr.At(0, 0)) {
+			return fmt.Errorf("the fixed column %q is a combination of the others on the first %d weeks (a control constant there?)", names[i], n)
+		}
+	}
+	return nil
+}
+
 // baselineForecast fits the fixed columns alone (intercept, trend, season,
 // controls) by least squares on the first n weeks and predicts every week.
 func baselineForecast(d *model.Design, y []float64, n int) ([]float64, error) {
@@ -182,8 +208,7 @@ func (r *BacktestResult) Checks(th Thresholds) []Check {
 	if r.Short {
 		c := Check{Name: "accuracy/holdout_wmape", Family: Accuracy, Scope: Global, Status: Warn,
 			Threshold: th.HoldoutWMAPE.Fail,
-			Detail: fmt.Sprintf("not judged: a holdout of %d weeks needs at least %d weeks before it to fit the model",
-				r.TestWeeks, r.MinTrain)}
+			Detail: "not judged: " + r.Reason}
 		return []Check{c}
 	}
 	m := r.Model

@@ -4,6 +4,9 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
+
+	"gonum.org/v1/gonum/mat"
 
 	"sluice/model"
 	"sluice/uncertainty"
@@ -28,6 +31,9 @@ type RecoverResult struct {
 	SD             []float64
 	Floor          float64 // a tenth of the ROI of all media together
 
+	// SpendVIF is each channel's variance inflation factor in the spend
+	// data (see SpendVIF).
+	SpendVIF []float64
 }
 
 // Recover simulates Replicates panels from the fit: the same spend and
@@ -48,6 +54,7 @@ func Recover(d *model.Design, fit *model.FitResult, set Settings) (*RecoverResul
 		r.ROI[k] = s.ROI
 	}
 	r.Floor = roiFloor(d, point, set.ValuePerKPI)
+	r.SpendVIF = SpendVIF(d)
 	sim := newSimulator(fit.Fitted, fit.Residuals, float64(d.N)/float64(max(d.N-d.Spec.NumParams(), 1)))
 	r.Inflation, r.BlockLength = sim.inflation, sim.block
 	var done counter
@@ -89,6 +96,64 @@ func Recover(d *model.Design, fit *model.FitResult, set Settings) (*RecoverResul
 		r.SD = append(r.SD, sd(roi))
 	}
 	return r, nil
+}
+
+// SpendVIF returns, per channel, the variance inflation factor of its
+// weekly spend given the other channels' spend and the fixed columns
+// (intercept, trend, season, controls): 1/(1 − R²) of that regression
+// (Belsley, Kuh & Welsch 1980, Regression Diagnostics, from memory). Two
+// channels spent together both get a large one; the refits of the recovery
+// check then trade their effects off against each other. It is a property
+// of the data alone, so it does not depend on where the fit landed (a fit
+// can pull confounded channels' curves apart to make their media columns
+// look unrelated). +Inf when the spend is an exact combination.
+func SpendVIF(d *model.Design) []float64 {
+	K := len(d.Spend)
+	_, nf := d.Fixed.Dims()
+	out := make([]float64, K)
+	for k := range K {
+		x := mat.NewDense(d.N, nf+K-1, nil)
+		x.Slice(0, d.N, 0, nf).(*mat.Dense).Copy(d.Fixed)
+		c := nf
+		for l := range K {
+			if l != k {
+				x.SetCol(c, d.Spend[l])
+				c++
+			}
+		}
+		y := d.Spend[k]
+		var m float64
+		for _, v := range y {
+			m += v
+		}
+		m /= float64(d.N)
+		var sst float64
+		for _, v := range y {
+			sst += (v - m) * (v - m)
+		}
+		var qr mat.QR
+		qr.Factorize(x)
+		var b, pred mat.VecDense
+		if err := qr.SolveVecTo(&b, false, mat.NewVecDense(d.N, slices.Clone(y))); err != nil {
+			out[k] = math.Inf(1)
+			continue
+		}
+		pred.MulVec(x, &b)
+		var ssr float64
+		for t, v := range y {
+			e := v - pred.AtVec(t)
+			ssr += e * e
+		}
+		switch {
+		case sst == 0:
+			out[k] = math.Inf(1) // constant spend: the intercept explains it all
+		case ssr <= 1e-12*sst:
+			out[k] = math.Inf(1)
+		default:
+			out[k] = sst / ssr
+		}
+	}
+	return out
 }
 
 // roiFloor is a tenth of the ROI of all media together (their contribution
@@ -151,13 +216,16 @@ func halves(n int) (first, second []bool) {
 	return first, second
 }
 
-// Checks grades the result, one pair of checks per channel.
+// Checks grades the result, three checks per channel.
 func (r *RecoverResult) Checks(th Thresholds) []Check {
 	var out []Check
 	n := len(r.Refit) - r.Failed
 	for k, name := range r.Channels {
-		e, b := r.MedianAbsError[k], r.MedianError[k]
+		e, b, v := r.MedianAbsError[k], r.MedianError[k], r.SpendVIF[k]
 		out = append(out,
+			check("recovery/spend_collinearity", Recovery, name, th.SpendVIF.above(v), v, th.SpendVIF.Fail,
+				"variance inflation %.3g: %.0f%% of the variation of its spend follows the other channels' spend and the baseline; warn above %.3g",
+				v, 100*(1-1/v), th.SpendVIF.Warn),
 			check("recovery/roi_error", Recovery, name, th.RecoveryError.above(e), e, th.RecoveryError.Fail,
 				"refitted on %d panels simulated from the fit (ROI %.3g): median |error| %.0f%%, ROI SD %.3g; warn above %.0f%%",
 				n, r.ROI[k], 100*e, r.SD[k], 100*th.RecoveryError.Warn),

@@ -35,7 +35,8 @@ type RobustResult struct {
 	DriftSD         []float64
 	DriftReplicates int
 	Drift           []float64
-	DriftScaled     bool // whether Drift is a z
+	DriftScaled     bool  // whether Drift is a z
+	DriftErr        error // why a half could not be fitted; drift is then not judged
 
 	halfFits [2]*model.FitResult
 }
@@ -226,7 +227,7 @@ func Robustness(d *model.Design, y []float64, fit *model.FitResult, set Settings
 		errs[i] = err
 		set.progress("stability", done.inc(), r.Blocks+4)
 	})
-	for i, err := range errs {
+	for i, err := range errs[:2] {
 		if err != nil {
 			return nil, fmt.Errorf("stability refit with %s: %w", names[i], err)
 		}
@@ -234,6 +235,14 @@ func Robustness(d *model.Design, y []float64, fit *model.FitResult, set Settings
 	for k := range K {
 		r.DecayNarrow = append(r.DecayNarrow, rel(res[0], k))
 		r.DecayWide = append(r.DecayWide, rel(res[1], k))
+	}
+	// A half the model cannot be fitted on (a control constant there) leaves
+	// drift unjudged rather than failing the run.
+	for i, err := range errs[2:] {
+		if err != nil {
+			r.DriftErr = fmt.Errorf("%s: %w", names[2+i], err)
+			return r, nil
+		}
 	}
 	r.FirstHalf, r.SecondHalf = res[2], res[3]
 	r.halfFits = [2]*model.FitResult{halfFits[0], halfFits[1]}
@@ -268,6 +277,11 @@ func (r *RobustResult) Checks(th Thresholds) []Check {
 		out = append(out, check("stability/decay_bounds", Stability, name, th.DecayBounds.above(b), b, th.DecayBounds.Fail,
 			"ROI changes %+.0f%% with the upper decay bound at %.2g, %+.0f%% at %.2g; warn above %.0f%%",
 			100*r.DecayNarrow[k], r.NarrowUpper[k], 100*r.DecayWide[k], r.WideUpper[k], 100*th.DecayBounds.Warn))
+		if r.DriftErr != nil {
+			out = append(out, Check{Name: "stability/drift", Family: Stability, Scope: name, Status: Warn,
+				Threshold: th.DriftZ.Fail, Detail: "not judged: the model cannot be fitted on " + r.DriftErr.Error()})
+			continue
+		}
 		z := r.Drift[k]
 		if r.DriftScaled {
 			out = append(out, check("stability/drift", Stability, name, th.DriftZ.above(z), z, th.DriftZ.Fail,

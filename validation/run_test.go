@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"math"
 	"slices"
+	"strings"
 	"testing"
 
 	"sluice/model"
@@ -103,6 +104,12 @@ func TestConfoundedChannelsFailScoped(t *testing.T) {
 	}
 	if !failed["search"] || !failed["display"] {
 		t.Errorf("failed channels %v, want search and display", failed)
+	}
+	// The spend data alone shows why: the pair's spend is collinear.
+	for _, c := range r.Evidence.Checks {
+		if c.Name == "recovery/spend_collinearity" && (c.Status == Fail) != (c.Scope == "search" || c.Scope == "display") {
+			t.Errorf("spend collinearity of %s: %s (VIF %.3g)", c.Scope, c.Status, c.Metric)
+		}
 	}
 }
 
@@ -341,5 +348,42 @@ func TestBacktestShortPanel(t *testing.T) {
 	cs := r.Checks(DefaultThresholds())
 	if !r.Short || len(cs) != 1 || cs[0].Status != Warn {
 		t.Fatalf("short panel: %+v", cs)
+	}
+}
+
+// A control that only starts in the second half (a promotion flag never on
+// before) is constant on the first half and on the holdout's training
+// weeks of a panel that starts it late: the checks that need those fits
+// are not judged (warnings), and the run still completes.
+func TestControlConstantOnPart(t *testing.T) {
+	sim := simulate(t, "testdata/truth_clean.yaml", 0)
+	p := *sim.Panel
+	p.Control = slices.Clone(p.Control)
+	promo := slices.Clone(p.Control[1])
+	for i := range 150 {
+		promo[i] = 0
+	}
+	promo[152] = 1
+	p.Control[1] = promo
+	d, err := model.NewDesign(&p, sim.Truth.Spec())
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := Run(Problem{Panel: &p, Design: d}, DefaultThresholds(), Settings{Seed: 1, Workers: 2, Replicates: 4})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var drift, holdout int
+	for _, c := range r.Evidence.Checks {
+		if c.Name == "stability/drift" && c.Status == Warn && strings.Contains(c.Detail, "not judged") {
+			drift++
+		}
+		if c.Name == "accuracy/holdout_wmape" && c.Status == Warn && strings.Contains(c.Detail, `"promo"`) {
+			holdout++
+		}
+	}
+	if drift != 3 || holdout != 1 {
+		logChecks(t, r.Evidence)
+		t.Errorf("%d drift and %d holdout checks not judged, want 3 and 1", drift, holdout)
 	}
 }

@@ -65,6 +65,12 @@ type Thresholds struct {
 	BacktestMedian Limit `json:"backtest_median_wmape" yaml:"backtest_median_wmape"`
 	BacktestWorst  Limit `json:"backtest_worst_wmape" yaml:"backtest_worst_wmape"`
 
+	// SpendVIF: variance inflation factor of a channel's spend given the
+	// other channels' and the fixed columns. Default {5, 10} (the usual
+	// rule of thumb: above 10 collinearity is serious; Kutner, Nachtsheim &
+	// Neter 2004, Applied Linear Regression Models, section 10.5, from
+	// memory).
+	SpendVIF Limit `json:"spend_vif" yaml:"spend_vif"`
 	// RecoveryError: median |ROI refit − ROI fitted| / ROI fitted over the
 	// simulated panels. Default {0.20, 0.40}; 20% is the project's own
 	// acceptance criterion of a fit against a known truth.
@@ -119,6 +125,7 @@ func DefaultThresholds() Thresholds {
 		Skill:          Limit{0.10, 0},
 		BacktestMedian: Limit{0.10, 0.20},
 		BacktestWorst:  Limit{0.15, 0.30},
+		SpendVIF:       Limit{5, 10},
 		RecoveryError:  Limit{0.20, 0.40},
 		RecoveryBias:   Limit{0.15, 0.30},
 		QuarterOut:     Limit{0.25, 0.50},

@@ -1,10 +1,13 @@
 package validation
 
 import (
+	"encoding/json"
 	"math"
 	"reflect"
 	"strings"
 	"testing"
+
+	"sluice/internal/refcheck"
 )
 
 func TestLimitGrades(t *testing.T) {
@@ -61,6 +64,37 @@ func TestThresholdsSet(t *testing.T) {
 	} {
 		if err := th.Set(c.key, c.vals...); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("Set(%s, %v): %v, want %q", c.key, c.vals, err, c.want)
+		}
+	}
+}
+
+// The tail probabilities the doc comments of Thresholds quote for the
+// defaults, recomputed live with SciPy (scipy.stats t, binom, norm): the
+// documented figures are right to the digits given, and the defaults are
+// the limits they were computed for.
+func TestThresholdTails(t *testing.T) {
+	th := DefaultThresholds()
+	if th.DriftZ != (Limit{2.5, 3.5}) || th.Coverage != (Limit{0.75, 0.60}) || th.LiftZ != (Limit{1.5, 2}) {
+		t.Fatalf("defaults changed: update the documented tails")
+	}
+	// 9 of 13 weeks is the most that falls below 0.75, 7 below 0.60.
+	if 9.0/13 >= th.Coverage.Warn || 10.0/13 < th.Coverage.Warn || 7.0/13 >= th.Coverage.Fail || 8.0/13 < th.Coverage.Fail {
+		t.Fatalf("coverage limits no longer fall between 9|10 and 7|8 weeks of 13")
+	}
+	out := refcheck.Python(t, []string{"scipy"}, "testdata/tails.py", nil)
+	var got map[string]float64
+	if err := json.Unmarshal(out, &got); err != nil {
+		t.Fatalf("%v: %s", err, out)
+	}
+	documented := map[string][2]float64{ // value, half of the last quoted digit
+		"t19_2.5": {0.022, 0.0005}, "t19_3.5": {0.0024, 0.00005},
+		"binom_9_of_13": {0.034, 0.0005}, "binom_7_of_13": {0.0009, 0.00005},
+		"norm_1.5": {0.13, 0.005}, "norm_2": {0.046, 0.0005},
+	}
+	for k, d := range documented {
+		v, ok := got[k]
+		if !ok || math.Abs(v-d[0]) > d[1] {
+			t.Errorf("%s: SciPy %.6g, documented %g", k, v, d[0])
 		}
 	}
 }
