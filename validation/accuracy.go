@@ -208,7 +208,7 @@ func (r *BacktestResult) Checks(th Thresholds) []Check {
 	if r.Short {
 		c := Check{Name: "accuracy/holdout_wmape", Family: Accuracy, Scope: Global, Status: Warn,
 			Threshold: th.HoldoutWMAPE.Fail,
-			Detail: "not judged: " + r.Reason}
+			Detail:    "not judged: " + r.Reason}
 		return []Check{c}
 	}
 	m := r.Model

@@ -105,7 +105,7 @@ func runValidate(c *cli.Context) error {
 		}
 	}
 	out := validateOutput{Tool: "sluice", Version: version, Seed: in.Seed,
-		Inputs:   validateInputs{inputHashes: inputHashes{Data: in.DataPath, DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256}},
+		Inputs: validateInputs{inputHashes: inputHashes{Data: in.DataPath, DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256}},
 		Settings: validateSettings{HoldoutWeeks: set.HoldoutWeeks, Folds: set.Folds, FoldWeeks: set.FoldWeeks,
 			Replicates: set.Replicates, BlockWeeks: set.BlockWeeks, Calibrate: o.Bool("calibrate")},
 		Thresholds: th}
