@@ -88,6 +88,7 @@ func newApp(stdout, stderr io.Writer) *cli.App {
 			fitCommand(),
 			simulateCommand(),
 			demoCommand(),
+			validateCommand(),
 			keygenCommand(),
 			signCommand(),
 		},
