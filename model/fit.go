@@ -73,7 +73,48 @@ func NewDesign(p *Panel, spec Spec) (*Design, error) {
 	if err := p.RequireWeeks(need, fmt.Sprintf("the model has %d parameters", spec.NumParams())); err != nil {
 		return nil, err
 	}
-	return buildDesign(p, spec), nil
+	d := buildDesign(p, spec)
+	if err := d.CheckBase(); err != nil {
+		return nil, fmt.Errorf("%s: %w", p.Source, err)
+	}
+	return d, nil
+}
+
+// ErrBaseDependent reports base columns (intercept, trend, season, controls)
+// that are linearly dependent, such as a control that never changes.
+var ErrBaseDependent = errors.New("model: base columns are linearly dependent")
+
+// CheckBase returns an error naming the first base column that is constant
+// or a combination of the ones before it over the design's weeks; the fit
+// cannot separate such columns.
+func (d *Design) CheckBase() error {
+	names := d.Spec.FixedNames()
+	_, p := d.Fixed.Dims()
+	var qr mat.QR
+	qr.Factorize(d.Fixed)
+	var r mat.Dense
+	qr.RTo(&r)
+	for j := range p {
+		norm := mat.Norm(d.Fixed.ColView(j), 2)
+		if norm == 0 || math.Abs(r.At(j, j)) <= 1e-9*norm {
+			what := "is a combination of the base columns before it"
+			if j > 0 && isConstant(d.Fixed, j) {
+				what = "is constant, so it cannot be told apart from the intercept"
+			}
+			return fmt.Errorf("%w: %q %s over these %d weeks", ErrBaseDependent, names[j], what, d.N)
+		}
+	}
+	return nil
+}
+
+func isConstant(f *mat.Dense, j int) bool {
+	n, _ := f.Dims()
+	for t := 1; t < n; t++ {
+		if f.At(t, j) != f.At(0, j) {
+			return false
+		}
+	}
+	return true
 }
 
 // buildDesign computes mean spend and the fixed columns without checks.
@@ -142,6 +183,9 @@ var ErrNoFit = errors.New("model: no start produced a usable fit")
 func (d *Design) Fit(y []float64, set FitSettings) (*FitResult, error) {
 	if len(y) != d.N {
 		panic("model: KPI length differs from the design")
+	}
+	if err := d.CheckBase(); err != nil {
+		return nil, err
 	}
 	starts := d.starts(set)
 	workers := max(set.Workers, 1)

@@ -3,6 +3,7 @@ package model
 import (
 	"math"
 	"sort"
+	"strings"
 	"testing"
 )
 
@@ -159,5 +160,19 @@ func TestForecastContinuesDesign(t *testing.T) {
 		if want := full[n-h+i]; math.Abs(v-want) > 1e-9*math.Abs(want) {
 			t.Fatalf("week %d: forecast %v, prediction %v", i, v, want)
 		}
+	}
+}
+
+// A control that never changes cannot be told apart from the intercept;
+// the design refuses it by name instead of failing inside the fit.
+func TestConstantControlRefused(t *testing.T) {
+	sim := simulateFile(t, "testdata/truth_recovery.yaml")
+	p := sim.Panel
+	for i := range p.Control[0] {
+		p.Control[0][i] = 1
+	}
+	_, err := NewDesign(p, sim.Truth.Spec())
+	if err == nil || !strings.Contains(err.Error(), `"price_index" is constant`) {
+		t.Fatalf("err = %v", err)
 	}
 }
