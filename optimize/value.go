@@ -64,3 +64,12 @@ func (e Economics) Gains(dst []float64, resp Response, w, c []float64) []float64
 	}
 	return dst
 }
+
+// MarginalROI converts one entry of Value's gradient (currency of value per
+// unit of weekly spend) into the money marginal ROI of DESIGN.md,
+// Margin · ValuePerKPI · (dR/dw) / Horizon: the currency the last unit of
+// spend returns. Since grad = Margin·ValuePerKPI·dR/dw − Horizon, this is
+// 1 + grad/Horizon.
+func (e Economics) MarginalROI(grad float64) float64 {
+	return 1 + grad/float64(e.Horizon)
+}
