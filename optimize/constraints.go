@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -253,6 +254,24 @@ func (c *Constraints) checkGroups(l, u []float64, S, tol float64) error {
 // fixed channels (locks and boxes of zero width) that the budget and group
 // rows carry in their right-hand sides.
 func (c *Constraints) conflictError(f *feasible, rows []int) error {
+	rows = slices.Clone(rows)
+	rank := func(i int) [2]int { // budget, groups, then channel bounds, each in plan order
+		r := f.rows[i]
+		switch r.kind {
+		case rowBudget:
+			return [2]int{0, 0}
+		case rowGroupMin, rowGroupMax:
+			return [2]int{1, 2*r.index + int(r.kind-rowGroupMin)}
+		}
+		return [2]int{2, 2*r.index + int(r.kind-rowLower)}
+	}
+	slices.SortFunc(rows, func(a, b int) int {
+		ra, rb := rank(a), rank(b)
+		if ra[0] != rb[0] {
+			return ra[0] - rb[0]
+		}
+		return ra[1] - rb[1]
+	})
 	var names []string
 	fixedToo := map[int]bool{}
 	for _, i := range rows {

@@ -21,6 +21,7 @@ type row struct {
 	index int // free-channel index for bounds, group index for shares
 	a     []float64
 	b     float64
+	scale float64 // size of the terms b was computed from, for rounding tolerances
 }
 
 // feasible is the feasible set of Constraints in the coordinates the solver
@@ -83,7 +84,7 @@ func newFeasible(c *Constraints) *feasible {
 		}
 		if zero {
 			// Only fixed channels are involved: the row holds or it does not.
-			if r.b > tol/f.sigma || (eq && r.b < -tol/f.sigma) {
+			if t := tol/f.sigma + 1e-12*r.scale; r.b > t || (eq && r.b < -t) {
 				f.rows = append(f.rows, r)
 				f.conflict = append(f.conflict, len(f.rows)-1)
 			}
@@ -102,9 +103,9 @@ func newFeasible(c *Constraints) *feasible {
 		return a
 	}
 	if c.AtMost {
-		add(row{kind: rowBudget, a: ones(-1), b: -f.target}, false)
+		add(row{kind: rowBudget, a: ones(-1), b: -f.target, scale: (S + f.fixedSum) / f.sigma}, false)
 	} else {
-		add(row{kind: rowBudget, a: ones(1), b: f.target}, true)
+		add(row{kind: rowBudget, a: ones(1), b: f.target, scale: (S + f.fixedSum) / f.sigma}, true)
 	}
 	for i, k := range f.free {
 		a := make([]float64, m)
@@ -135,7 +136,8 @@ func newFeasible(c *Constraints) *feasible {
 				}
 			}
 			f.groupRows = true
-			add(row{kind: rowGroupMin, index: gi, a: a, b: (g.MinShare*f.fixedSum - fixedIn) / f.sigma}, false)
+			add(row{kind: rowGroupMin, index: gi, a: a, b: (g.MinShare*f.fixedSum - fixedIn) / f.sigma,
+				scale: (g.MinShare*f.fixedSum + fixedIn) / f.sigma}, false)
 		}
 		if g.MaxShare < 1 {
 			a := make([]float64, m)
@@ -146,7 +148,8 @@ func newFeasible(c *Constraints) *feasible {
 				}
 			}
 			f.groupRows = true
-			add(row{kind: rowGroupMax, index: gi, a: a, b: (fixedIn - g.MaxShare*f.fixedSum) / f.sigma}, false)
+			add(row{kind: rowGroupMax, index: gi, a: a, b: (fixedIn - g.MaxShare*f.fixedSum) / f.sigma,
+				scale: (g.MaxShare*f.fixedSum + fixedIn) / f.sigma}, false)
 		}
 	}
 	return f

@@ -3,11 +3,16 @@ package optimize
 import (
 	"errors"
 	"math"
+	"slices"
 )
 
 // errQPStalled reports that the active-set method did not finish within its
 // iteration bound, which only rounding can cause.
 var errQPStalled = errors.New("optimize: quadratic subproblem did not converge")
+
+// errQPInaccurate reports that rounding left the solution of a quadratic
+// subproblem off its constraints.
+var errQPInaccurate = errors.New("optimize: quadratic subproblem solved inaccurately")
 
 // qp is a strictly convex quadratic program in n variables,
 //
@@ -70,9 +75,12 @@ func (p *qp) solve(dst []float64) (z []float64, conflict []int, err error) {
 		for j, v := range r.a {
 			s += math.Abs(v * z[j])
 		}
-		return 1e-13 * (1 + math.Abs(r.b) + s)
+		return 1e-13 * (1 + math.Abs(r.b) + r.scale + s)
 	}
 	dir := make([]float64, n)
+	// skip holds violated rows found to be implied, to rounding, by the
+	// active ones (see below); it is cleared whenever a row is added.
+	skip := make([]bool, m)
 	for iter := 0; ; iter++ {
 		if iter > 20*(m+n+1) {
 			return nil, nil, errQPStalled
@@ -80,7 +88,7 @@ func (p *qp) solve(dst []float64) (z []float64, conflict []int, err error) {
 		// Equality rows first, oriented so that they start violated or tight.
 		pk := -1
 		for i := 0; i < p.neq; i++ {
-			if !added[i] {
+			if !added[i] && !skip[i] {
 				pk = i
 				if dot(p.rows[i].a, z)-p.rows[i].b > 0 {
 					sgn[i] = -1
@@ -91,7 +99,7 @@ func (p *qp) solve(dst []float64) (z []float64, conflict []int, err error) {
 		if pk < 0 {
 			worst := 0.0
 			for i := p.neq; i < m; i++ {
-				if added[i] || norms[i] == 0 {
+				if added[i] || skip[i] || norms[i] == 0 {
 					continue
 				}
 				if s := slack(i); s < -tolOf(i) && s/norms[i] < worst {
@@ -100,6 +108,15 @@ func (p *qp) solve(dst []float64) (z []float64, conflict []int, err error) {
 			}
 		}
 		if pk < 0 {
+			// An ill-conditioned G (a quasi-Newton matrix gone astray) can
+			// let rounding move z off the rows it keeps; refuse rather than
+			// return such a point.
+			for i, r := range p.rows {
+				s := dot(r.a, z) - r.b
+				if s < -1e3*tolOf(i) || (i < p.neq && s > 1e3*tolOf(i)) {
+					return nil, nil, errQPInaccurate
+				}
+			}
 			return z, nil, nil
 		}
 		np := make([]float64, n)
@@ -107,7 +124,9 @@ func (p *qp) solve(dst []float64) (z []float64, conflict []int, err error) {
 			np[j] = sgn[pk] * v
 		}
 		forward(L, n, np) // ñ_p = L⁻¹ n_p
-		uplus := append(append([]float64(nil), u...), 0)
+		// The state before this row, to return to if it proves implied.
+		zSnap, actSnap, actNSnap, uSnap := slices.Clone(z), slices.Clone(act), slices.Clone(actN), slices.Clone(u)
+		uplus := append(slices.Clone(u), 0)
 		for inner := 0; ; inner++ {
 			if inner > 4*(m+n+1) {
 				return nil, nil, errQPStalled
@@ -129,6 +148,25 @@ func (p *qp) solve(dst []float64) (z []float64, conflict []int, err error) {
 				t2 = max(0, -slack(pk)/rr)
 			}
 			if math.IsInf(t1, 1) && math.IsInf(t2, 1) {
+				// n_p = Σ r_j n_j with r_j <= 0 on the active inequalities, so
+				// they imply n_p·z <= Σ r_j b_j. If that bound reaches b_p
+				// (to rounding) the row is not violated in exact arithmetic:
+				// only rounding made it look so, in a wedge too thin to
+				// resolve. Otherwise the rows are a Farkas certificate.
+				implied, size := 0.0, math.Abs(p.rows[pk].b)+p.rows[pk].scale
+				for j, i := range act {
+					implied += r[j] * sgn[i] * p.rows[i].b
+					size += math.Abs(r[j]) * (math.Abs(p.rows[i].b) + p.rows[i].scale)
+				}
+				if sgn[pk]*p.rows[pk].b-implied <= 1e-12*(1+size) {
+					copy(z, zSnap)
+					act, actN, u = actSnap, actNSnap, uSnap
+					for i := range added {
+						added[i] = slices.Contains(act, i)
+					}
+					skip[pk] = true
+					break
+				}
 				conflict = []int{pk}
 				for j, i := range act {
 					if math.Abs(r[j]) > 1e-12 {
@@ -154,6 +192,7 @@ func (p *qp) solve(dst []float64) (z []float64, conflict []int, err error) {
 				actN = append(actN, np)
 				u = uplus
 				added[pk] = true
+				clear(skip)
 				break
 			}
 			added[act[drop]] = false

@@ -349,7 +349,18 @@ func (sv *solver) multistart(res *Result) (*cand, error) {
 			return nil, err
 		}
 	}
-	if risk {
+	screen := sv.screenDraws()
+	if !risk {
+		draws := screen
+		if draws == nil {
+			draws = sv.all
+		}
+		if w := sv.gridStart(draws); w != nil {
+			if err := addStart("grid optimum", w); err != nil {
+				return nil, err
+			}
+		}
+	} else {
 		q := *p
 		q.Objective = Objective{Kind: Expected}
 		ss := s
@@ -392,8 +403,7 @@ func (sv *solver) multistart(res *Result) (*cand, error) {
 		}
 	}
 
-	// Draws to screen on, and the smoothing widths of each phase.
-	screen := sv.screenDraws()
+	// The smoothing widths of each phase.
 	var ws []float64
 	if risk {
 		ws = widths(max(1e-2, s.Smoothing)*sv.phi, s.Smoothing*sv.phi)
@@ -424,8 +434,12 @@ func (sv *solver) multistart(res *Result) (*cand, error) {
 	// stage solves through the widths, carrying the quasi-Newton matrix.
 	stage := func(ev *evaluator, ws []float64, y, B []float64) *cand {
 		c := &cand{y: y, B: B}
+		xtol := s.StepTolerance
+		if ev != evF {
+			xtol = max(xtol, screenTolerance) // the polish refines it
+		}
 		for _, h := range ws {
-			ls := newLocal(f, ev, obj, h, sv.phi, s.MaxIterations, s.StepTolerance)
+			ls := newLocal(f, ev, obj, h, sv.phi, s.MaxIterations, xtol)
 			r := ls.solve(c.y, c.B)
 			c.y, c.value, c.B, c.status = r.y, r.value, r.B, r.status
 			c.iters += r.iters
@@ -525,6 +539,10 @@ func (sv *solver) multistart(res *Result) (*cand, error) {
 	res.Distinct = len(finals)
 	return best, nil
 }
+
+// screenTolerance is the step tolerance of the screening solves: they only
+// need to find which optimum a start leads to.
+const screenTolerance = 1e-5
 
 // screenDraws returns the evenly spread draws to screen the starts on, or
 // nil when all draws are few enough.

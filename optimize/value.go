@@ -35,17 +35,25 @@ func (e Economics) Value(resp Response, d int, w, grad []float64) float64 {
 	if len(w) != resp.NumChannels() {
 		panic("optimize: plan length does not match channel count")
 	}
-	scale := e.Margin * e.ValuePerKPI
-	h := float64(e.Horizon)
 	var v float64
 	for k, wk := range w {
-		r, dr := resp.Eval(d, k, wk)
-		v += scale*r - h*wk
+		vk, dk := e.ChannelValue(resp, d, k, wk)
+		v += vk
 		if grad != nil {
-			grad[k] = scale*dr - h
+			grad[k] = dk
 		}
 	}
 	return v
+}
+
+// ChannelValue returns channel k's term of Value under draw d at weekly
+// spend w, Margin · ValuePerKPI · R_dk(w) − Horizon · w, and its derivative.
+// Value is their sum over channels.
+func (e Economics) ChannelValue(resp Response, d, k int, w float64) (v, dv float64) {
+	r, dr := resp.Eval(d, k, w)
+	scale := e.Margin * e.ValuePerKPI
+	h := float64(e.Horizon)
+	return scale*r - h*w, scale*dr - h
 }
 
 // Gains writes into dst (allocated if nil) the gain of moving from the status
