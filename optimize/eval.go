@@ -21,14 +21,13 @@ type evaluator struct {
 	workers int
 	perDraw bool // keep every draw's value and gradient (risk objectives)
 
-	vals   []float64   // value under each draw
-	grads  []float64   // gradient under each draw, len(draws)·k, when perDraw
-	sumV   []float64   // per chunk: sum of values
-	sumG   []float64   // per chunk: sum of gradients, k each
-	bufs   [][]float64 // per worker gradient scratch
-	wt     []float64   // draw weights of a smoothed objective
-	evals  int         // evaluations done
-	weight int         // draws evaluated (sum over evaluations)
+	vals  []float64   // value under each draw
+	grads []float64   // gradient under each draw, len(draws)·k, when perDraw
+	sumV  []float64   // per chunk: sum of values
+	sumG  []float64   // per chunk: sum of gradients, k each
+	bufs  [][]float64 // per worker gradient scratch
+	wt    []float64   // draw weights of a smoothed objective
+	evals int         // evaluations done
 }
 
 func newEvaluator(resp Response, econ Economics, draws []int, workers int, perDraw bool) *evaluator {
@@ -51,7 +50,6 @@ func newEvaluator(resp Response, econ Economics, draws []int, workers int, perDr
 // run evaluates plan w under every draw.
 func (ev *evaluator) run(w []float64) {
 	ev.evals++
-	ev.weight += len(ev.draws)
 	nc := len(ev.sumV)
 	var next atomic.Int64
 	work := func(buf []float64) {

@@ -122,11 +122,14 @@ func (o Objective) exact(v, base []float64) float64 {
 // and writes into wt the weight of each draw in its gradient, so that the
 // gradient with respect to the plan is Σ_d wt_d ∇V_d.
 //
-// Quantile: the kernel quantile estimator with a logistic kernel F of scale h
-// (Sheather & Marron 1990, "Kernel quantile estimators", JASA 85): ζ solves
-// mean_d F((ζ − V_d)/h) = q, and by the implicit function theorem
+// Quantile: the type-8 sample quantile is (1 − g)·x_(j) + g·x_(j+1) for
+// order statistics j, j+1 and weight g fixed by n and q (Hyndman & Fan
+// 1996); each order statistic x_(i) is replaced by the kernel quantile at
+// level (i − ½)/n with a logistic kernel F of scale h (Sheather & Marron
+// 1990, "Kernel quantile estimators", JASA 85): ζ solves
+// mean_d F((ζ − V_d)/h) = (i − ½)/n, and by the implicit function theorem
 // ∇ζ = Σ_d f_d ∇V_d / Σ_d f_d with f_d = F'((ζ − V_d)/h). It tends to the
-// sample quantile as h → 0.
+// type-8 sample quantile as h → 0.
 //
 // CVaR: the Rockafellar & Uryasev (2000) auxiliary-variable form
 // CVaR_α(L) = min_ζ ζ + mean_d (L_d − ζ)⁺/α with the plus function replaced
@@ -140,26 +143,28 @@ func (o Objective) smoothed(v, base []float64, h float64, wt []float64) float64 
 	switch o.Kind {
 	case Quantile:
 		s := sample.Sorted(v)
-		z0 := sample.Quantile(s, o.Level, sample.Default)
-		lo, hi := s[0]-40*h, s[len(s)-1]+40*h
-		// φ(ζ) = mean F((ζ − V)/h) − q is increasing.
-		phi := func(z float64) (val, der float64) {
-			for _, x := range v {
-				F := logistic((z - x) / h)
-				val += F
-				der += F * (1 - F)
+		// Type 8 interpolates x_(j) and x_(j+1) with weight g.
+		nf := float64(len(v))
+		pos := nf*o.Level + (o.Level+1)/3
+		j := math.Floor(pos)
+		g := pos - j
+		j = min(max(j, 1), nf)
+		j1 := min(j+1, nf)
+		if j == nf {
+			g = 0
+		}
+		clear(wt)
+		scratch := make([]float64, len(v))
+		var z float64
+		for _, part := range []struct{ rank, share float64 }{{j, 1 - g}, {j1, g}} {
+			if part.share == 0 {
+				continue
 			}
-			return val/n - o.Level, der / (n * h)
-		}
-		z := root(phi, z0, lo, hi, h)
-		var sf float64
-		for d, x := range v {
-			F := logistic((z - x) / h)
-			wt[d] = F * (1 - F)
-			sf += wt[d]
-		}
-		for d := range wt {
-			wt[d] /= sf
+			zi := kernelQuantile(v, s, (part.rank-0.5)/nf, h, scratch)
+			z += part.share * zi
+			for d := range wt {
+				wt[d] += part.share * scratch[d]
+			}
 		}
 		return z
 	case CVaR:
@@ -192,6 +197,37 @@ func (o Objective) smoothed(v, base []float64, h float64, wt []float64) float64 
 		return meanG - o.Weight*cvar
 	}
 	panic("optimize: smoothed called for the expected objective")
+}
+
+// kernelQuantile returns the kernel quantile ζ at level p of the values v
+// (s: v sorted), mean_d F((ζ − v_d)/h) = p with F the logistic
+// distribution function, and writes into wt its gradient with respect to
+// each v_d. At level (i − ½)/n it tends to the order statistic x_(i) as
+// h → 0: there F((ζ − x_(i))/h) = ½ and the other draws sit at 0 or 1.
+func kernelQuantile(v, s []float64, p, h float64, wt []float64) float64 {
+	n := float64(len(v))
+	i := int(math.Round(p*n + 0.5))
+	z0 := s[min(max(i, 1), len(s))-1]
+	lo, hi := s[0]-40*h, s[len(s)-1]+40*h
+	phi := func(z float64) (val, der float64) {
+		for _, x := range v {
+			F := logistic((z - x) / h)
+			val += F
+			der += F * (1 - F)
+		}
+		return val/n - p, der / (n * h)
+	}
+	z := root(phi, z0, lo, hi, h)
+	var sf float64
+	for d, x := range v {
+		F := logistic((z - x) / h)
+		wt[d] = F * (1 - F)
+		sf += wt[d]
+	}
+	for d := range wt {
+		wt[d] /= sf
+	}
+	return z
 }
 
 // root finds the zero of the increasing function phi in [lo, hi] by Newton's

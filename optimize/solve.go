@@ -54,8 +54,8 @@ type Settings struct {
 	// ScreenDraws: when there are more than twice as many draws, every
 	// start is first solved on this many evenly spread draws, and only the
 	// best distinct optima are then polished on all draws. Zero means 64,
-	// or 10/Level for the quantile and CVaR objectives when that is larger;
-	// negative means no screening.
+	// or 5/Level for CVaR and 10/min(Level, 1−Level) for the quantile when
+	// that is larger; negative means no screening.
 	ScreenDraws int
 	// Polish is the largest number of distinct screened optima polished on
 	// all draws; only those within three standard errors of the best
@@ -257,6 +257,11 @@ func (sv *solver) run() (*Result, error) {
 	evAll.mean(gradCur)
 	sv.base = slices.Clone(evAll.vals)
 	evAll.base = sv.base
+	for d, v := range sv.base {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("optimize: the response gives draw %d a non-finite value (%v) at the status quo", d, v)
+		}
+	}
 	valueCur := obj.exact(evAll.vals, sv.base)
 
 	res := &Result{Objective: obj, Seed: s.Seed, ValueAtCurrent: valueCur}
@@ -284,6 +289,9 @@ func (sv *solver) run() (*Result, error) {
 	gradObj := make([]float64, len(w))
 	res.Surrogate = evAll.objective(obj, h, gradObj)
 	res.Value = obj.exact(evAll.vals, sv.base)
+	if math.IsNaN(res.Value) || math.IsInf(res.Value, 0) {
+		return nil, fmt.Errorf("optimize: the response gives the proposal a non-finite value (%v)", res.Value)
+	}
 	if !risk {
 		res.Surrogate = res.Value
 	}
@@ -553,13 +561,14 @@ func (sv *solver) screenDraws() []int {
 		return nil
 	}
 	if k == 0 {
+		// Enough draws that the screened tail holds several: the CVaR
+		// averages its tail, the quantile reads one order statistic.
 		k = 64
-		if o := sv.p.Objective; o.Kind != Expected {
-			lvl := o.Level
-			if o.Kind == Quantile {
-				lvl = min(lvl, 1-lvl)
-			}
-			k = max(k, int(math.Ceil(10/lvl)))
+		switch o := sv.p.Objective; o.Kind {
+		case CVaR:
+			k = max(k, int(math.Ceil(5/o.Level)))
+		case Quantile:
+			k = max(k, int(math.Ceil(10/min(o.Level, 1-o.Level))))
 		}
 	}
 	if n <= 2*k {

@@ -2,6 +2,16 @@
 // maximizes the value of a plan over a set of response-curve draws, under the
 // budget, per-channel bounds, maximum changes, locks and group shares that a
 // media team really has.
+//
+// A plan file (LoadPlan, ParsePlan) becomes a Problem through Plan.Resolve;
+// the model adds its Response. Solve maximizes the Objective — the expected
+// value, a low quantile of it, or the mean gain less a weighted CVaR of the
+// loss — by sequential quadratic programming: every step solves a quadratic
+// model over the whole feasible polyhedron (Constraints) with an exact
+// active-set method, so no iterate ever leaves it. S-shaped curves make the
+// problem non-concave, so Solve starts from several points, among them the
+// exact optimum of a budget grid found by dynamic programming, and reports
+// how many starts agree and whether the result meets the KKT conditions.
 package optimize
 
 // Response is a family of horizon response curves: for each draw d and
