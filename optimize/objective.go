@@ -144,19 +144,16 @@ func (o Objective) smoothed(v, base []float64, h float64, wt []float64) float64 
 	case Quantile:
 		s := sample.Sorted(v)
 		// Type 8 interpolates x_(j) and x_(j+1) with weight g.
+		// (sample.Quantile clamps both ranks into 1..n).
 		nf := float64(len(v))
 		pos := nf*o.Level + (o.Level+1)/3
 		j := math.Floor(pos)
 		g := pos - j
-		j = min(max(j, 1), nf)
-		j1 := min(j+1, nf)
-		if j == nf {
-			g = 0
-		}
+		ja, jb := min(max(j, 1), nf), min(max(j+1, 1), nf)
 		clear(wt)
 		scratch := make([]float64, len(v))
 		var z float64
-		for _, part := range []struct{ rank, share float64 }{{j, 1 - g}, {j1, g}} {
+		for _, part := range []struct{ rank, share float64 }{{ja, 1 - g}, {jb, g}} {
 			if part.share == 0 {
 				continue
 			}

@@ -258,3 +258,19 @@ func TestMoreStartsFindNothingBetter(t *testing.T) {
 		t.Errorf("more starts found %v, better than the default's %v", more.Value, r.Value)
 	}
 }
+
+// TestSmoothedQuantileSmallSamples: at the edges of type 8 (a level so low
+// or high that both ranks clamp to an end, Hyndman & Fan 1996) the
+// smoothed quantile still tends to sample.Quantile.
+func TestSmoothedQuantileSmallSamples(t *testing.T) {
+	for _, v := range [][]float64{{5}, {3, 9}, {4, 1, 7}} {
+		for _, q := range []float64{0.01, 0.2, 0.5, 0.9, 0.99} {
+			o := Objective{Kind: Quantile, Level: q}
+			wt := make([]float64, len(v))
+			got := o.smoothed(v, nil, 1e-6, wt)
+			if want := sample.Quantile(sample.Sorted(v), q, sample.Default); math.Abs(got-want) > 1e-9 {
+				t.Errorf("%v at %v: smoothed %v, sample quantile %v", v, q, got, want)
+			}
+		}
+	}
+}
