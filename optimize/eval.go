@@ -28,6 +28,7 @@ type evaluator struct {
 	bufs  [][]float64 // per worker gradient scratch
 	wt    []float64   // draw weights of a smoothed objective
 	evals int         // evaluations done
+	drawn int         // plans evaluated under one draw, summed over evaluations
 }
 
 func newEvaluator(resp Response, econ Economics, draws []int, workers int, perDraw bool) *evaluator {
@@ -50,6 +51,7 @@ func newEvaluator(resp Response, econ Economics, draws []int, workers int, perDr
 // run evaluates plan w under every draw.
 func (ev *evaluator) run(w []float64) {
 	ev.evals++
+	ev.drawn += len(ev.draws)
 	nc := len(ev.sumV)
 	var next atomic.Int64
 	work := func(buf []float64) {

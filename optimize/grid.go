@@ -67,6 +67,11 @@ func (sv *solver) gridStart(draws []int) []float64 {
 		wg.Go(work)
 	}
 	wg.Wait()
+	cells := 0
+	for _, v := range value {
+		cells += len(v)
+	}
+	sv.drawn += cells * len(draws) / len(f.pos) // as whole plans under one draw
 	// best[n]: the best total of the channels so far using n units.
 	inf := math.Inf(-1)
 	best := make([]float64, gridUnits+1)

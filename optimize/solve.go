@@ -125,8 +125,10 @@ type Result struct {
 	Distinct int
 	Seed     uint64
 	// Evaluations counts plans evaluated over all draws, ScreenEvaluations
-	// those evaluated over the screening draws only.
-	Evaluations, ScreenEvaluations int
+	// those evaluated over the screening draws only; DrawEvaluations counts
+	// plans evaluated under one draw (calls of Economics.Value) in all, the
+	// measure of the work done.
+	Evaluations, ScreenEvaluations, DrawEvaluations int
 }
 
 // ChannelResult is one channel of a Result. MROI figures are means over the
@@ -210,6 +212,7 @@ type solver struct {
 	base  []float64 // value of the status quo under every draw
 	evals int
 	scr   int
+	drawn int
 }
 
 func newSolver(p *Problem, c *Constraints, s Settings) *solver {
@@ -314,6 +317,8 @@ func (sv *solver) run() (*Result, error) {
 	res.Spend *= float64(sv.c.Horizon)
 	res.Evaluations = evAll.evals + sv.evals
 	res.ScreenEvaluations = sv.scr
+	// The grid start and the gains are counted as the draws they read.
+	res.DrawEvaluations = evAll.drawn + sv.drawn + 2*len(sv.all)
 	return res, nil
 }
 
@@ -353,6 +358,7 @@ func (sv *solver) multistart(res *Result) (*cand, error) {
 		ev := newEvaluator(p.Point, p.Economics, []int{0}, 1, false)
 		ls := newLocal(f, ev, Objective{Kind: Expected}, 0, sv.phi, s.MaxIterations, s.StepTolerance)
 		r := ls.solve(starts[0].y, nil)
+		sv.drawn += ev.drawn
 		if err := addStart("point optimum", f.toW(nil, r.y)); err != nil {
 			return nil, err
 		}
@@ -379,6 +385,7 @@ func (sv *solver) multistart(res *Result) (*cand, error) {
 		}
 		sv.evals += mean.Evaluations
 		sv.scr += mean.ScreenEvaluations
+		sv.drawn += mean.DrawEvaluations
 		if err := addStart("mean optimum", mean.Proposed); err != nil {
 			return nil, err
 		}
@@ -434,8 +441,10 @@ func (sv *solver) multistart(res *Result) (*cand, error) {
 	evF.base = sv.base
 	defer func() {
 		sv.evals += evF.evals
+		sv.drawn += evF.drawn
 		if evS != nil {
 			sv.scr += evS.evals
+			sv.drawn += evS.drawn
 		}
 	}()
 
