@@ -9,12 +9,12 @@ import (
 	"sluice/internal/sample"
 )
 
-// Kind is what an Objective maximizes.
-type Kind int
+// ObjectiveKind is what an Objective maximizes.
+type ObjectiveKind int
 
 const (
 	// Expected is the mean over draws of the plan's value.
-	Expected Kind = iota
+	Expected ObjectiveKind = iota
 	// Quantile is the Level-quantile of the plan's value over draws (a low
 	// Level such as 0.1 asks for a plan that does well in bad draws).
 	Quantile
@@ -36,7 +36,7 @@ const (
 // so the solver maximizes smooth versions whose width h shrinks towards zero
 // (see smoothed); Result reports the exact value beside the smooth one.
 type Objective struct {
-	Kind   Kind
+	Kind   ObjectiveKind
 	Level  float64 // q for Quantile, α for CVaR; in (0, 1)
 	Weight float64 // λ for CVaR, >= 0
 }

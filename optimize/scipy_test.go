@@ -27,6 +27,7 @@ type slsqpProblem struct {
 	Objective    map[string]any `json:"objective"`
 	Seed         int            `json:"seed"`
 	RandomStarts int            `json:"random_starts"`
+	Sluice       []float64      `json:"sluice"` // sluice's optimum, for SLSQP to start from
 }
 
 type slsqpGroup struct {
@@ -35,14 +36,18 @@ type slsqpGroup struct {
 	MaxShare float64 `json:"max_share"`
 }
 
+type slsqpRun struct {
+	Value   float64 `json:"value"`
+	Success bool    `json:"success"`
+	Message string  `json:"message"`
+}
+
 type slsqpAnswer struct {
-	Name  string    `json:"name"`
-	Value *float64  `json:"value"`
-	X     []float64 `json:"x"`
-	Runs  []struct {
-		Value   float64 `json:"value"`
-		Success bool    `json:"success"`
-	} `json:"runs"`
+	Name   string     `json:"name"`
+	Value  *float64   `json:"value"`
+	X      []float64  `json:"x"`
+	Runs   []slsqpRun `json:"runs"`
+	Polish *slsqpRun  `json:"polish"`
 }
 
 // slsqpCase builds a problem of n channels (hill[k] says which are Hill
@@ -107,7 +112,9 @@ func exactAt(p Problem, w []float64) float64 {
 // TestAgainstSLSQP solves the same problems with SciPy's SLSQP (Kraft 1988,
 // scipy.optimize.minimize(method="SLSQP"), SciPy 1.10.1 from Debian), run
 // live from several starts, and asks sluice's optimum to be at least as
-// good within 1e-6 relative.
+// good within 1e-6 relative. SLSQP also starts from sluice's optimum and
+// must not improve on it by more than that: an independent check that it is
+// a local optimum.
 func TestAgainstSLSQP(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs SciPy")
@@ -136,7 +143,14 @@ func TestAgainstSLSQP(t *testing.T) {
 		{Name: "social", Members: []int{7, 8}, MinShare: 0, MaxShare: 0.1}}, Objective{})
 	add("cvar, 5 channels", 5, 40, hill(5, 2), 2.5, nil, Objective{Kind: CVaR, Level: 0.25, Weight: 0.5})
 	var in []slsqpProblem
-	for _, c := range cases {
+	results := make([]*Result, len(cases))
+	for i, c := range cases {
+		r, err := Solve(c.p, nil)
+		if err != nil {
+			t.Fatalf("%s: %v", c.sp.Name, err)
+		}
+		results[i] = r
+		c.sp.Sluice = r.Proposed
 		in = append(in, c.sp)
 	}
 	stdin, err := json.Marshal(in)
@@ -154,10 +168,7 @@ func TestAgainstSLSQP(t *testing.T) {
 			if a.Value == nil {
 				t.Fatalf("SLSQP succeeded from no start: %+v", a.Runs)
 			}
-			r, err := Solve(c.p, nil)
-			if err != nil {
-				t.Fatal(err)
-			}
+			r := results[i]
 			// SciPy's point is feasible and its value is our objective there.
 			if v, what := c.p.Constraints.violation(a.X); v > 1e-6*c.sp.Weekly {
 				t.Fatalf("SciPy's point violates %s by %g", what, v)
@@ -177,6 +188,13 @@ func TestAgainstSLSQP(t *testing.T) {
 				r.Value, ref, rel, agreeing, len(a.Runs), r.Agreed, len(r.Starts))
 			if rel > 1e-6 {
 				t.Errorf("sluice's objective %.10g is worse than SLSQP's %.10g by %.2g relative", r.Value, ref, rel)
+			}
+			if pol := a.Polish; pol == nil || !pol.Success {
+				t.Errorf("SLSQP from sluice's optimum: %+v", pol)
+			} else if gain := (pol.Value - r.Value) / math.Abs(r.Value); gain > 1e-6 {
+				t.Errorf("SLSQP improves sluice's optimum %.10g to %.10g (%.2g relative)", r.Value, pol.Value, gain)
+			} else {
+				t.Logf("SLSQP from sluice's optimum: %.10g (%.2g relative)", pol.Value, gain)
 			}
 			if !r.KKT.OK {
 				t.Errorf("KKT: %+v", r.KKT)

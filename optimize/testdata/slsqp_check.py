@@ -2,7 +2,8 @@
 
 Reads a JSON list of problems on stdin and writes, for each, the best point
 SLSQP reaches from several starts (the status quo and seeded random points
-in the boxes) and the objective there. The curves are the closed forms of
+in the boxes) and the objective there; and, separately, where SLSQP goes
+from sluice's own optimum (key "polish"), to confirm it is a local optimum. The curves are the closed forms of
 sluice's tests: beta * a^s/(a^s + K^s) (Hill) or beta * (1 - exp(-a/K)).
 
 Objectives:
@@ -119,7 +120,9 @@ def solve(p):
         starts.append(lo + rng.random(n) * (top - lo))
     best = None
     runs = []
-    for s in starts:
+    polish = None
+    extra = [np.array(p["sluice"], dtype=float)] if p.get("sluice") else []
+    for i, s in enumerate(starts + extra):
         x0 = s
         if nx > n:
             v, _ = values(s)
@@ -133,10 +136,14 @@ def solve(p):
         # SLSQP stopping at rounding level: the step cannot improve f any
         # more. The Go side checks that the point is feasible.
         ok = r.status in (0, 8)
-        runs.append({"value": val, "success": ok, "nit": int(r.nit), "message": str(r.message)})
+        run = {"value": val, "success": ok, "nit": int(r.nit), "message": str(r.message)}
+        if i == len(starts):
+            polish = run
+            continue
+        runs.append(run)
         if ok and (best is None or val > best[0]):
             best = (val, (r.x[:n] * xs[:n]).tolist())
-    out = {"name": p["name"], "runs": runs}
+    out = {"name": p["name"], "runs": runs, "polish": polish}
     if best is not None:
         out["value"], out["x"] = best
     return out
