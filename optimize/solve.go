@@ -469,6 +469,12 @@ func (sv *solver) multistart(res *Result) (*cand, error) {
 	if screen != nil {
 		first, firstWs = evS, screenWs
 	}
+	// Screening solves stop early, so the same optimum may be reached a
+	// little apart along flat directions.
+	mergeTol := sigmaTol
+	if screen != nil {
+		mergeTol *= 10
+	}
 	reports := make([]StartReport, len(starts))
 	var cands []*cand
 	for i, st := range starts {
@@ -482,7 +488,7 @@ func (sv *solver) multistart(res *Result) (*cand, error) {
 		}
 		merged := false
 		for _, o := range cands {
-			if dist(o.y, c.y) <= sigmaTol {
+			if dist(o.y, c.y) <= mergeTol {
 				o.starts = append(o.starts, i)
 				merged = true
 				break
