@@ -157,13 +157,14 @@ type StartReport struct {
 //
 // The objective is not concave when Hill curves are S-shaped, so Solve
 // starts from several feasible points — the status quo, the point fit's
-// optimum, the expected objective's optimum (for the risk objectives), the
-// center of the boxes and Settings.RandomStarts seeded random points, each
-// projected onto the feasible set — solves from each (see local), and keeps
-// the best. With many draws the starts are screened on a subsample and the
-// best distinct optima polished on all draws. Every iterate meets every
-// constraint; the result is checked against them to 1e-9 of the budget and
-// against the KKT conditions.
+// optimum (when Problem.Point is set), for the expected objective the exact
+// optimum of a budget grid (gridStart), for the quantile and CVaR the
+// expected objective's optimum, the center of the boxes and
+// Settings.RandomStarts seeded random points, each projected onto the
+// feasible set — solves from each (see local), and keeps the best. With many
+// draws the starts are screened on a subsample and the best distinct optima
+// polished on all draws. Every iterate meets every constraint; the result is
+// checked against them to 1e-9 of the budget and against the KKT conditions.
 func Solve(p Problem, settings *Settings) (*Result, error) {
 	var s Settings
 	if settings != nil {
