@@ -55,6 +55,10 @@ type Design struct {
 	Fixed     *mat.Dense  // n×p fixed columns
 	MeanSpend []float64
 	N         int
+	// TrendScale is the divisor of the week index in the trend column
+	// (weeks of the full data minus one), kept by Head and Forecast so the
+	// trend means the same everywhere.
+	TrendScale float64
 }
 
 // NewDesign checks the panel against the spec and builds the fixed columns.
@@ -62,7 +66,6 @@ func NewDesign(p *Panel, spec Spec) (*Design, error) {
 	if err := spec.Validate("spec"); err != nil {
 		return nil, err
 	}
-	n := p.NumWeeks()
 	if len(spec.Channels) != len(p.Channels) {
 		panic("model: spec and panel channel counts differ")
 	}
@@ -70,16 +73,59 @@ func NewDesign(p *Panel, spec Spec) (*Design, error) {
 	if err := p.RequireWeeks(need, fmt.Sprintf("the model has %d parameters", spec.NumParams())); err != nil {
 		return nil, err
 	}
-	d := &Design{Spec: spec, N: n, Spend: p.Spend, MeanSpend: make([]float64, len(p.Channels))}
-	for k, x := range p.Spend {
-		var s float64
-		for _, v := range x {
-			s += v
+	d := buildDesign(p, spec)
+	if err := d.CheckBase(); err != nil {
+		return nil, fmt.Errorf("%s: %w", p.Source, err)
+	}
+	return d, nil
+}
+
+// ErrBaseDependent reports base columns (intercept, trend, season, controls)
+// that are linearly dependent, such as a control that never changes.
+var ErrBaseDependent = errors.New("model: base columns are linearly dependent")
+
+// CheckBase returns an error naming the first base column that is constant
+// or a combination of the ones before it over the design's weeks; the fit
+// cannot separate such columns.
+func (d *Design) CheckBase() error {
+	names := d.Spec.FixedNames()
+	_, p := d.Fixed.Dims()
+	var qr mat.QR
+	qr.Factorize(d.Fixed)
+	var r mat.Dense
+	qr.RTo(&r)
+	for j := range p {
+		norm := mat.Norm(d.Fixed.ColView(j), 2)
+		if norm == 0 || math.Abs(r.At(j, j)) <= 1e-9*norm {
+			what := "is a combination of the base columns before it"
+			if j > 0 && isConstant(d.Fixed, j) {
+				what = "is constant, so it cannot be told apart from the intercept"
+			}
+			return fmt.Errorf("%w: %q %s over these %d weeks", ErrBaseDependent, names[j], what, d.N)
 		}
-		d.MeanSpend[k] = s / float64(n)
+	}
+	return nil
+}
+
+func isConstant(f *mat.Dense, j int) bool {
+	n, _ := f.Dims()
+	for t := 1; t < n; t++ {
+		if f.At(t, j) != f.At(0, j) {
+			return false
+		}
+	}
+	return true
+}
+
+// buildDesign computes mean spend and the fixed columns without checks.
+func buildDesign(p *Panel, spec Spec) *Design {
+	n := p.NumWeeks()
+	d := &Design{Spec: spec, N: n, Spend: p.Spend, MeanSpend: make([]float64, len(p.Channels)), TrendScale: float64(max(n-1, 1))}
+	for k, x := range p.Spend {
+		d.MeanSpend[k] = meanOf(x)
 	}
 	d.Fixed = fixedColumns(p, spec)
-	return d, nil
+	return d
 }
 
 // fixedColumns builds intercept, trend (t/(n−1), from 0 to 1), Fourier terms
@@ -137,6 +183,9 @@ var ErrNoFit = errors.New("model: no start produced a usable fit")
 func (d *Design) Fit(y []float64, set FitSettings) (*FitResult, error) {
 	if len(y) != d.N {
 		panic("model: KPI length differs from the design")
+	}
+	if err := d.CheckBase(); err != nil {
+		return nil, err
 	}
 	starts := d.starts(set)
 	workers := max(set.Workers, 1)
@@ -494,7 +543,7 @@ func (d *Design) Head(n int) *Design {
 	if n < 1 || n > d.N {
 		panic("model: head length out of range")
 	}
-	h := &Design{Spec: d.Spec, N: n, MeanSpend: d.MeanSpend, Spend: make([][]float64, len(d.Spend))}
+	h := &Design{Spec: d.Spec, N: n, MeanSpend: d.MeanSpend, TrendScale: d.TrendScale, Spend: make([][]float64, len(d.Spend))}
 	for k, x := range d.Spend {
 		h.Spend[k] = x[:n:n]
 	}

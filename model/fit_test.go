@@ -3,6 +3,7 @@ package model
 import (
 	"math"
 	"sort"
+	"strings"
 	"testing"
 )
 
@@ -118,5 +119,60 @@ func TestHeadPredictsLikeFull(t *testing.T) {
 		if math.Abs(head[i]-full[i]) > 1e-9*math.Abs(full[i]) {
 			t.Fatalf("week %d: head %v, full %v", i, head[i], full[i])
 		}
+	}
+}
+
+// A forecast continues the design: forecasting the last 20 weeks of a
+// panel from its first part, with the spend and controls those weeks
+// actually had held constant, equals predicting them when spend and
+// controls are constant there (the base columns and adstock carry on).
+func TestForecastContinuesDesign(t *testing.T) {
+	sim := simulateFile(t, "testdata/truth_recovery.yaml")
+	p := sim.Panel
+	n, h := p.NumWeeks(), 20
+	// Make the last h weeks constant so the forecast's inputs are exact.
+	for k := range p.Spend {
+		for i := n - h; i < n; i++ {
+			p.Spend[k][i] = p.Spend[k][n-h]
+		}
+	}
+	for j := range p.Control {
+		for i := n - h; i < n; i++ {
+			p.Control[j][i] = p.Control[j][n-h]
+		}
+	}
+	d, err := NewDesign(p, sim.Truth.Spec())
+	if err != nil {
+		t.Fatal(err)
+	}
+	full := d.Predict(sim.Params)
+	head := d.Head(n - h)
+	plan := make([]float64, len(p.Spend))
+	for k := range plan {
+		plan[k] = p.Spend[k][n-h]
+	}
+	ctl := make([]float64, len(p.Control))
+	for j := range ctl {
+		ctl[j] = p.Control[j][n-h]
+	}
+	fc := head.Forecast(sim.Params, plan, ctl, h)
+	for i, v := range fc {
+		if want := full[n-h+i]; math.Abs(v-want) > 1e-9*math.Abs(want) {
+			t.Fatalf("week %d: forecast %v, prediction %v", i, v, want)
+		}
+	}
+}
+
+// A control that never changes cannot be told apart from the intercept;
+// the design refuses it by name instead of failing inside the fit.
+func TestConstantControlRefused(t *testing.T) {
+	sim := simulateFile(t, "testdata/truth_recovery.yaml")
+	p := sim.Panel
+	for i := range p.Control[0] {
+		p.Control[0][i] = 1
+	}
+	_, err := NewDesign(p, sim.Truth.Spec())
+	if err == nil || !strings.Contains(err.Error(), `"price_index" is constant`) {
+		t.Fatalf("err = %v", err)
 	}
 }

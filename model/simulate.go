@@ -236,11 +236,7 @@ func Simulate(t *Truth) (*Simulated, error) {
 		p.Control = append(p.Control, x)
 	}
 	spec := t.Spec()
-	d := &Design{Spec: spec, N: n, Spend: p.Spend, MeanSpend: make([]float64, len(p.Channels))}
-	for k, x := range p.Spend {
-		d.MeanSpend[k] = meanOf(x)
-	}
-	d.Fixed = fixedColumns(p, spec)
+	d := buildDesign(p, spec)
 	params := Params{Fixed: []float64{t.Intercept, t.Trend}}
 	for h := 1; h <= spec.Harm; h++ {
 		if h == 1 {

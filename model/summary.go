@@ -152,3 +152,28 @@ func FitStats(y, e []float64, nparams int) Stats {
 	}
 	return st
 }
+
+// SupportWeeks is the window of the averages that describe the spend the
+// data has seen (the gate's support guard).
+const SupportWeeks = 4
+
+// Support returns, per channel, the lowest and the highest average weekly
+// spend over any SupportWeeks consecutive weeks of the data.
+func (d *Design) Support() (low, high []float64) {
+	low = make([]float64, len(d.Spend))
+	high = make([]float64, len(d.Spend))
+	for k, x := range d.Spend {
+		w := min(SupportWeeks, len(x))
+		var s float64
+		for t := range w {
+			s += x[t]
+		}
+		lo, hi := s, s
+		for t := w; t < len(x); t++ {
+			s += x[t] - x[t-w]
+			lo, hi = math.Min(lo, s), math.Max(hi, s)
+		}
+		low[k], high[k] = lo/float64(w), hi/float64(w)
+	}
+	return low, high
+}

@@ -81,3 +81,13 @@ func TestDerivatives(t *testing.T) {
 		check("delayed/θ", dp[i], (pu[i]-pd[i])/(2*h))
 	}
 }
+
+// Support is the range of 4-week moving averages (worked by hand).
+func TestSupport(t *testing.T) {
+	d := &Design{Spend: [][]float64{{4, 8, 0, 4, 12, 0, 0, 0}}}
+	lo, hi := d.Support()
+	// windows: (4+8+0+4)/4=4, (8+0+4+12)/4=6, (0+4+12+0)/4=4, (4+12+0+0)/4=4, (12+0+0+0)/4=3
+	if lo[0] != 3 || hi[0] != 6 {
+		t.Fatalf("support [%v, %v], want [3, 6]", lo[0], hi[0])
+	}
+}

@@ -2,6 +2,16 @@
 // maximizes the value of a plan over a set of response-curve draws, under the
 // budget, per-channel bounds, maximum changes, locks and group shares that a
 // media team really has.
+//
+// A plan file (LoadPlan, ParsePlan) becomes a Problem through Plan.Resolve;
+// the model adds its Response. Solve maximizes the Objective — the expected
+// value, a low quantile of it, or the mean gain less a weighted CVaR of the
+// loss — by sequential quadratic programming: every step solves a quadratic
+// model over the whole feasible polyhedron (Constraints) with an exact
+// active-set method, so no iterate ever leaves it. S-shaped curves make the
+// problem non-concave, so Solve starts from several points, among them the
+// exact optimum of a budget grid found by dynamic programming, and reports
+// how many starts agree and whether the result meets the KKT conditions.
 package optimize
 
 // Response is a family of horizon response curves: for each draw d and
@@ -35,17 +45,25 @@ func (e Economics) Value(resp Response, d int, w, grad []float64) float64 {
 	if len(w) != resp.NumChannels() {
 		panic("optimize: plan length does not match channel count")
 	}
-	scale := e.Margin * e.ValuePerKPI
-	h := float64(e.Horizon)
 	var v float64
 	for k, wk := range w {
-		r, dr := resp.Eval(d, k, wk)
-		v += scale*r - h*wk
+		vk, dk := e.ChannelValue(resp, d, k, wk)
+		v += vk
 		if grad != nil {
-			grad[k] = scale*dr - h
+			grad[k] = dk
 		}
 	}
 	return v
+}
+
+// ChannelValue returns channel k's term of Value under draw d at weekly
+// spend w, Margin · ValuePerKPI · R_dk(w) − Horizon · w, and its derivative.
+// Value is their sum over channels.
+func (e Economics) ChannelValue(resp Response, d, k int, w float64) (v, dv float64) {
+	r, dr := resp.Eval(d, k, w)
+	scale := e.Margin * e.ValuePerKPI
+	h := float64(e.Horizon)
+	return scale*r - h*w, scale*dr - h
 }
 
 // Gains writes into dst (allocated if nil) the gain of moving from the status
@@ -63,4 +81,13 @@ func (e Economics) Gains(dst []float64, resp Response, w, c []float64) []float64
 		dst[d] = e.Value(resp, d, w, nil) - e.Value(resp, d, c, nil)
 	}
 	return dst
+}
+
+// MarginalROI converts one entry of Value's gradient (currency of value per
+// unit of weekly spend) into the money marginal ROI of DESIGN.md,
+// Margin · ValuePerKPI · (dR/dw) / Horizon: the currency the last unit of
+// spend returns. Since grad = Margin·ValuePerKPI·dR/dw − Horizon, this is
+// 1 + grad/Horizon.
+func (e Economics) MarginalROI(grad float64) float64 {
+	return 1 + grad/float64(e.Horizon)
 }

@@ -91,6 +91,9 @@ func newApp(stdout, stderr io.Writer) *cli.App {
 			bootstrapCommand(),
 			mergeCommand(),
 			curvesCommand(),
+			validateCommand(),
+			keygenCommand(),
+			signCommand(),
 		},
 	}
 }

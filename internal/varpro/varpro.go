@@ -102,6 +102,8 @@ type Solver struct {
 	resid   []float64
 	gsolver lsq.GramSolver
 	work    []float64
+	qa      [][]float64 // orthonormal basis of the active varying columns
+	qbuf    [][]float64
 }
 
 // NewSolver prepares the projection onto the fixed columns.
@@ -139,6 +141,7 @@ func NewSolver(p *Problem) (*Solver, error) {
 	s.rhs = make([]float64, L)
 	s.coef = make([]float64, L)
 	s.resid = make([]float64, n)
+	s.qbuf = alloc(L, n)
 	return s, nil
 }
 
@@ -241,47 +244,65 @@ func (s *Solver) solveFree() error {
 	return nil
 }
 
-// jacobian fills jac (n×m) with Kaufman's approximation −P_A⊥ ∂(M c)/∂θ,
-// where A holds the fixed columns and the varying columns with a nonzero
-// coefficient. Call after Evaluate at the same theta.
-func (s *Solver) jacobian(theta []float64, jac *mat.Dense) {
+// jacobian fills jc (one n-vector per parameter) with Kaufman's
+// approximation −P_A⊥ ∂(M c)/∂θ, where A holds the fixed columns and the
+// varying columns with a nonzero coefficient. Call after Evaluate at the
+// same theta. The active columns are orthonormalized by modified
+// Gram–Schmidt with one reorthogonalization pass (O(n·k²), no n×n Q).
+func (s *Solver) jacobian(theta []float64, jc [][]float64) {
 	p := s.p
-	m := len(theta)
 	p.Deriv(theta, s.coef, s.d)
-	var active []int
+	qa := s.qa[:0]
 	for l, c := range s.coef {
-		if c != 0 {
-			active = append(active, l)
+		if c == 0 {
+			continue
 		}
-	}
-	var qa *mat.Dense
-	if len(active) > 0 {
-		a := mat.NewDense(s.n, len(active), nil)
-		for i, l := range active {
-			a.SetCol(i, s.colsT[l])
-		}
-		var qr mat.QR
-		qr.Factorize(a)
-		var q mat.Dense
-		qr.QTo(&q)
-		qa = mat.DenseCopyOf(q.Slice(0, s.n, 0, len(active)))
-	}
-	for j := range m {
-		d := s.d[j]
-		s.projectFixed(d)
-		if qa != nil {
-			for i := range len(active) {
-				var w float64
-				for t := range s.n {
-					w += qa.At(t, i) * d[t]
-				}
-				for t := range s.n {
-					d[t] -= w * qa.At(t, i)
-				}
+		q := s.qbuf[len(qa)]
+		copy(q, s.colsT[l])
+		for pass := 0; pass < 2; pass++ {
+			for _, b := range qa {
+				axpy(-dot(b, q), b, q)
 			}
 		}
-		for t := range s.n {
-			jac.Set(t, j, -d[t])
+		nrm := math.Sqrt(dot(q, q))
+		if nrm <= 1e-12*math.Sqrt(dot(s.colsT[l], s.colsT[l])) || nrm == 0 {
+			continue // numerically inside the span already
+		}
+		scale(1/nrm, q)
+		qa = append(qa, q)
+	}
+	s.qa = qa
+	for j := range theta {
+		d := s.d[j]
+		s.projectFixed(d)
+		for _, b := range qa {
+			axpy(-dot(b, d), b, d)
+		}
+		out := jc[j]
+		for t, v := range d {
+			out[t] = -v
+		}
+	}
+}
+
+func axpy(a float64, x, y []float64) {
+	for i, v := range x {
+		y[i] += a * v
+	}
+}
+
+func scale(a float64, x []float64) {
+	for i := range x {
+		x[i] *= a
+	}
+}
+
+// normalMatrix writes JᵀJ into jtj and Jᵀr into grad.
+func normalMatrix(jc [][]float64, r []float64, jtj *mat.SymDense, grad []float64) {
+	for a := range jc {
+		grad[a] = dot(jc[a], r)
+		for b := a; b < len(jc); b++ {
+			jtj.SetSym(a, b, dot(jc[a], jc[b]))
 		}
 	}
 }
@@ -319,8 +340,8 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 		return Result{}, ErrBadStart
 	}
 	res := Result{Evaluations: 1}
-	jac := mat.NewDense(s.n, m, nil)
-	var jtj mat.SymDense
+	jac := alloc(m, s.n)
+	jtj := mat.NewSymDense(m, nil)
 	grad := make([]float64, m)
 	trial := make([]float64, m)
 	bestCoef := append([]float64(nil), s.coef...)
@@ -330,15 +351,7 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 	for res.Evaluations < maxEval {
 		res.Iterations++
 		s.jacobian(theta, jac)
-		jtj.SymOuterK(1, jac.T())
-		// grad = Jᵀ r (gradient of ½ RSS).
-		for j := range m {
-			var g float64
-			for t := range s.n {
-				g += jac.At(t, j) * s.resid[t]
-			}
-			grad[j] = g
-		}
+		normalMatrix(jac, s.resid, jtj, grad) // grad = Jᵀ r, the gradient of ½ RSS
 		// Which variables may move: not pinned at a bound by the gradient.
 		free := make([]int, 0, m)
 		var maxCos float64
@@ -360,14 +373,14 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 		// the search stalls instead and the looser test below decides.
 		if len(free) == 0 || maxCos <= gradTol*1e-2 || rss == 0 {
 			status = Converged
-			if degenerate(&jtj, nonzero(&jtj)) {
+			if degenerate(jtj, nonzero(jtj)) {
 				status = Degenerate
 			}
 			break
 		}
 		improved := false
 		for res.Evaluations < maxEval {
-			step, ok := lmStep(&jtj, grad, free, mu)
+			step, ok := lmStep(jtj, grad, free, mu)
 			if !ok {
 				mu *= 10
 				if mu > 1e16 {
@@ -405,11 +418,11 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 			s.Evaluate(theta)
 			res.Evaluations++
 			s.jacobian(theta, jac)
-			jtj.SymOuterK(1, jac.T())
+			normalMatrix(jac, s.resid, jtj, grad)
 			switch {
-			case degenerate(&jtj, nonzero(&jtj)):
+			case degenerate(jtj, nonzero(jtj)):
 				status = Degenerate
-			case converged(jac, s.resid, theta, p, gradTol):
+			case converged(jtj, grad, s.resid, theta, p, gradTol):
 				status = Converged
 			default:
 				status = NoProgress
@@ -430,23 +443,16 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 }
 
 // converged applies the gradient (cosine) test at theta.
-func converged(jac *mat.Dense, resid, theta []float64, p *Problem, gradTol float64) bool {
-	n, m := jac.Dims()
+func converged(jtj *mat.SymDense, grad, resid, theta []float64, p *Problem, gradTol float64) bool {
 	rnorm := math.Sqrt(dot(resid, resid))
 	if rnorm == 0 {
 		return true
 	}
-	for j := range m {
-		var g, c float64
-		for t := range n {
-			v := jac.At(t, j)
-			g += v * resid[t]
-			c += v * v
-		}
+	for j, g := range grad {
 		if (theta[j] <= p.Lower[j] && g > 0) || (theta[j] >= p.Upper[j] && g < 0) {
 			continue
 		}
-		if c > 0 && math.Abs(g)/(math.Sqrt(c)*rnorm) > gradTol {
+		if c := jtj.At(j, j); c > 0 && math.Abs(g)/(math.Sqrt(c)*rnorm) > gradTol {
 			return false
 		}
 	}

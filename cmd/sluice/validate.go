@@ -1,0 +1,211 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"github.com/urfave/cli/v2"
+
+	"sluice/validation"
+)
+
+func validateCommand() *cli.Command {
+	return &cli.Command{
+		Name:  "validate",
+		Usage: "check the model from five angles: holdout, recovery, stability, lift tests, past forecasts",
+		Flags: append(modelFlags(),
+			&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV: channel,start,end,incremental,std_error"},
+			&cli.BoolFlag{Name: "calibrate", Usage: "also refit with the lift tests in the objective and report the ROI it gives"},
+			&cli.StringFlag{Name: "records", Usage: "directory of earlier forecasts (*.json) to reconcile with the data"},
+			&cli.IntFlag{Name: "holdout-weeks", Value: 13, Usage: "weeks held out at the end of the data"},
+			&cli.IntFlag{Name: "folds", Value: 4, Usage: "origins of the rolling backtest"},
+			&cli.IntFlag{Name: "fold-weeks", Value: 13, Usage: "weeks per backtest fold"},
+			&cli.IntFlag{Name: "replicates", Value: 20, Usage: "simulated panels of the recovery and drift checks"},
+			&cli.IntFlag{Name: "block-weeks", Value: 13, Usage: "weeks left out per stability refit"},
+			&cli.StringFlag{Name: "limits", Usage: "threshold overrides, e.g. holdout_wmape=0.08:0.15,break_even=1.2 (warn:fail)"},
+			&cli.BoolFlag{Name: "json", Usage: "print the evidence as JSON instead of the table"},
+			&cli.StringFlag{Name: "out", Usage: "write the evidence (JSON) to this file"},
+		),
+		Action: runValidate,
+	}
+}
+
+// validateOutput is the JSON form of a validation run.
+type validateOutput struct {
+	Checks      []validation.Check    `json:"checks"`
+	Summary     statusCount           `json:"summary"`
+	Seed        uint64                `json:"seed"`
+	Inputs      validateInputs        `json:"inputs"`
+	Tool        string                `json:"tool"`
+	Version     string                `json:"version"`
+	Settings    validateSettings      `json:"settings"`
+	Thresholds  validation.Thresholds `json:"thresholds"`
+	Calibration []calibratedROI       `json:"calibration,omitempty"`
+	Pending     []string              `json:"pending_forecasts,omitempty"`
+	Notes       []string              `json:"notes"`
+}
+
+type statusCount struct {
+	Pass int `json:"pass"`
+	Warn int `json:"warn"`
+	Fail int `json:"fail"`
+}
+
+type validateInputs struct {
+	inputHashes
+	Lifts       string      `json:"lifts,omitempty"`
+	LiftsSHA256 string      `json:"lifts_sha256,omitempty"`
+	Records     []hashedRef `json:"records,omitempty"`
+}
+
+type hashedRef struct {
+	File   string `json:"file"`
+	SHA256 string `json:"sha256"`
+}
+
+type validateSettings struct {
+	HoldoutWeeks int  `json:"holdout_weeks"`
+	Folds        int  `json:"folds"`
+	FoldWeeks    int  `json:"fold_weeks"`
+	Replicates   int  `json:"replicates"`
+	BlockWeeks   int  `json:"block_weeks"`
+	Draws        int  `json:"draws"` // 0: the checks that need bootstrap draws did not run
+	Calibrate    bool `json:"calibrate"`
+}
+
+type calibratedROI struct {
+	Channel string  `json:"channel"`
+	ROI     float64 `json:"roi"`
+	ROICal  float64 `json:"roi_calibrated"`
+}
+
+func runValidate(c *cli.Context) error {
+	o, err := newOpts(c)
+	if err != nil {
+		return err
+	}
+	in, err := loadModelInput(o)
+	if err != nil {
+		return err
+	}
+	th := validation.DefaultThresholds()
+	if err := applyLimits(&th, o.List("limits")); err != nil {
+		return err
+	}
+	set := validation.Settings{Seed: in.Seed, Workers: in.Workers, ValuePerKPI: in.ValuePerKPI,
+		HoldoutWeeks: o.Int("holdout-weeks"), Folds: o.Int("folds"), FoldWeeks: o.Int("fold-weeks"),
+		Replicates: o.Int("replicates"), BlockWeeks: o.Int("block-weeks")}
+	for _, f := range []string{"holdout-weeks", "folds", "fold-weeks", "replicates", "block-weeks"} {
+		if o.Int(f) < 1 {
+			return fmt.Errorf("--%s %d must be at least 1", f, o.Int(f))
+		}
+	}
+	out := validateOutput{Tool: "sluice", Version: version, Seed: in.Seed,
+		Inputs: validateInputs{inputHashes: inputHashes{Data: in.DataPath, DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256}},
+		Settings: validateSettings{HoldoutWeeks: set.HoldoutWeeks, Folds: set.Folds, FoldWeeks: set.FoldWeeks,
+			Replicates: set.Replicates, BlockWeeks: set.BlockWeeks, Calibrate: o.Bool("calibrate")},
+		Thresholds: th}
+	prob := validation.Problem{Panel: in.Panel, Design: in.Design, Calibrate: o.Bool("calibrate")}
+	if path := o.String("lifts"); path != "" {
+		if prob.Lifts, err = validation.LoadLifts(path, in.Panel); err != nil {
+			return err
+		}
+		out.Inputs.Lifts = path
+		if out.Inputs.LiftsSHA256, err = sha256File(path); err != nil {
+			return err
+		}
+	} else if prob.Calibrate {
+		return withHint(fmt.Errorf("--calibrate needs lift tests"), "pass --lifts lifts.csv")
+	}
+	if dir := o.String("records"); dir != "" {
+		if prob.Forecasts, err = validation.LoadForecasts(dir); err != nil {
+			return err
+		}
+		for _, fc := range prob.Forecasts {
+			h, err := sha256File(fc.Source)
+			if err != nil {
+				return err
+			}
+			out.Inputs.Records = append(out.Inputs.Records, hashedRef{File: fc.Source, SHA256: h})
+		}
+	}
+	res, err := validation.Run(prob, th, set)
+	if err != nil {
+		return err
+	}
+	out.Checks = res.Evidence.Checks
+	sum := res.Evidence.Summary()
+	out.Summary = statusCount{Pass: sum[validation.Pass], Warn: sum[validation.Warn], Fail: sum[validation.Fail]}
+	out.Pending = res.Pending
+	if cal := res.Calibration; cal != nil {
+		for k, name := range cal.Channels {
+			out.Calibration = append(out.Calibration, calibratedROI{Channel: name, ROI: cal.Before[k], ROICal: cal.After[k]})
+		}
+	}
+	out.Notes = append(out.Notes, "without bootstrap draws the checks of the ROI spread over draws (stability/roi_cv, stability/break_even) did not run and lift z counts the experiment's error only")
+	if o.String("records") != "" && len(prob.Forecasts) == 0 {
+		out.Notes = append(out.Notes, "no *.json forecasts in "+o.String("records"))
+	}
+	if path := o.String("out"); path != "" {
+		if err := writeJSON(path, out); err != nil {
+			return err
+		}
+	}
+	if o.Bool("json") {
+		return printJSON(c.App.Writer, out)
+	}
+	printEvidence(c.App.Writer, in, out)
+	return nil
+}
+
+// applyLimits parses key=warn:fail (or key=value for break_even) overrides.
+func applyLimits(th *validation.Thresholds, items []string) error {
+	for _, it := range items {
+		key, val, ok := strings.Cut(it, "=")
+		if !ok {
+			return withHint(fmt.Errorf("--limits: %q is not key=warn:fail", it), "e.g. --limits holdout_wmape=0.08:0.15; keys: %s",
+				strings.Join(validation.LimitNames(), ", "))
+		}
+		var vals []float64
+		for _, s := range strings.Split(val, ":") {
+			v, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
+			if err != nil {
+				return fmt.Errorf("--limits: %s: %q is not a number", key, s)
+			}
+			vals = append(vals, v)
+		}
+		if err := th.Set(strings.TrimSpace(key), vals...); err != nil {
+			return fmt.Errorf("--limits: %w", err)
+		}
+	}
+	return nil
+}
+
+func printEvidence(w io.Writer, in *modelInput, out validateOutput) {
+	fmt.Fprintf(w, "validation of the %s model over %d weeks (%s); seed %d\n\n", in.Panel.KPIName, in.Panel.NumWeeks(),
+		filepath.Base(in.DataPath), out.Seed)
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "status\tcheck\tscope\tmetric\tthreshold\tdetail")
+	for _, c := range out.Checks {
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%.4g\t%.4g\t%s\n", c.Status, c.Name, c.Scope, c.Metric, c.Threshold, c.Detail)
+	}
+	tw.Flush()
+	if len(out.Calibration) > 0 {
+		fmt.Fprintln(w, "\ncalibrated with the lift tests:")
+		for _, c := range out.Calibration {
+			fmt.Fprintf(w, "  %-16s ROI %.3g -> %.3g\n", c.Channel, c.ROI, c.ROICal)
+		}
+	}
+	for _, p := range out.Pending {
+		fmt.Fprintf(w, "\n%s: no week of the forecast is in the data yet\n", p)
+	}
+	fmt.Fprintf(w, "\n%d pass, %d warn, %d fail\n", out.Summary.Pass, out.Summary.Warn, out.Summary.Fail)
+	for _, n := range out.Notes {
+		fmt.Fprintln(w, "note:", n)
+	}
+	fmt.Fprintln(w, "the checks estimate how far the model can be trusted; they do not guarantee it")
+}

@@ -1,0 +1,103 @@
+// Package policies holds the written policy by which the gate approves,
+// downsizes or refuses a proposed reallocation: the risk limits a move must
+// meet, the support guard, the smallest move worth making, what each kind of
+// failed evidence does, who may waive which check, the roles that sign and
+// the rules that say when each must sign.
+//
+// A policy is a YAML file (keys below, all snake_case) or one of the presets
+// built in (Names lists them: standard, cautious, exploratory). Files are
+// decoded strictly (package internal/strictyaml): an unknown key, a duplicate
+// key or a wrongly typed value is refused with file:line:column and the key's
+// path, and so is a limit that contradicts itself (Parse lists the checks).
+//
+// Money is in the currency of the plan. "Money moved" by a plan w from the
+// status quo c is max(Σ increases, Σ cuts) per week, that is
+// ½·Σ|w_k − c_k| + ½·|Σ(w_k − c_k)|; "over the horizon" multiplies a weekly
+// figure by the plan's horizon in weeks (the gain of a move is a figure over
+// the horizon, DESIGN.md "Value of a plan").
+//
+// Keys (zero value = what an absent key means). The values in the presets
+// are rules of thumb: common practice, no source. The structure (a loss
+// probability, a quantile floor, a CVaR floor) follows the risk measures'
+// definitions (Rockafellar & Uryasev 2002 for CVaR).
+//
+//	version                    int, required: 1 (format of this file).
+//	name                       text; absent: the file name or preset name.
+//	description                text; absent: none.
+//
+//	risk.max_loss_probability  largest acceptable share of draws whose gain is
+//	                           below zero; required, in (0, 1).
+//	risk.downside_level        quantile level of the downside figure, e.g.
+//	                           0.05 for the 5th percentile (Hyndman & Fan type
+//	                           8); required, in (0, 0.5).
+//	risk.downside_floor        worst acceptable gain at downside_level, money
+//	                           over the horizon (e.g. -50000); absent: none.
+//	risk.downside_floor_share  the same floor as a share of the money moved over
+//	                           the horizon (-0.05: at the downside level the move
+//	                           may lose at most 5% of the money it moves);
+//	                           absent: none; in [-1, 1]. With both floors given
+//	                           both must hold.
+//	risk.cvar_level            tail share averaged by the CVaR figure (mean of
+//	                           the worst cvar_level of draws); required, in
+//	                           (0, 0.5].
+//	risk.cvar_floor            worst acceptable CVaR, money over the horizon;
+//	                           absent: none.
+//	risk.cvar_floor_share      the same as a share of the money moved over the
+//	                           horizon; absent: none; in [-1, 1].
+//	risk.min_expected_gain     smallest acceptable mean gain, money over the
+//	                           horizon; absent: none. Above zero it also rules
+//	                           out very small steps.
+//
+//	support.high_multiple      spend above this multiple of the channel's
+//	                           highest 4-week average observed is not trusted;
+//	                           required, >= 1.
+//	support.low_multiple       spend below this multiple of the channel's
+//	                           lowest 4-week average observed is not trusted;
+//	                           0 (absent): no floor but zero; in [0, 1].
+//
+//	min_move.per_week          a plan moving less money per week than this
+//	                           counts as no move (verdict refuse); 0: none.
+//	min_move.share_of_spend    the same as a share of current total weekly
+//	                           spend; 0: none. The larger of the two applies.
+//
+//	evidence.on_fail           what a failed check does unless its family or
+//	                           name says otherwise: refuse | cap | warn;
+//	                           absent: refuse.
+//	evidence.on_warn           the same for a check that warns; absent: warn.
+//	evidence.exploration_band  "cap" holds a channel within ± this share of its
+//	                           current spend (0.10: ±10%); 0: no change; in
+//	                           [0, 1].
+//	evidence.families.F        {on_fail, on_warn} for family F (accuracy,
+//	                           recovery, stability, lift, reconciliation);
+//	                           absent fields inherit the defaults above.
+//	evidence.checks.NAME       {on_fail, on_warn} for the check called NAME;
+//	                           overrides its family.
+//	evidence.waivers.ROLE      {families: [...], checks: [...]}: the checks
+//	                           ROLE may waive; absent: nobody may waive.
+//
+//	roles.ROLE.description     text.
+//	roles.ROLE.keys            list of public keys (PKIX PEM): each entry is
+//	                           either the PEM text itself or a file path,
+//	                           relative to the policy file; absent: none yet
+//	                           (a policy without keys cannot be signed).
+//
+//	signoffs[i].name           required, unique: the rule's name, given as the
+//	                           reason for the sign-off.
+//	signoffs[i].explain        plain words for finance; absent: generated.
+//	signoffs[i].roles          required: roles (defined under roles) that must
+//	                           sign when the rule fires.
+//	signoffs[i].when           exactly one condition, judged on the approved
+//	                           plan:
+//	  always: true             every decision;
+//	  moved_above: X           money moved over the horizon above X;
+//	  moved_share_above: S     money moved per week above S × current total
+//	                           weekly spend;
+//	  change_above: S          some channel changed by more than S × its
+//	                           current spend;
+//	  cut_below: Z             some channel cut to below Z per week;
+//	  cut_below_support: true  some channel cut below its lowest 4-week average
+//	                           observed;
+//	  any_waiver: true         a waiver was accepted;
+//	  verdict_in: [...]        the verdict is one of these (approve, downsize,
+//	                           refuse).
+package policies

@@ -1,0 +1,531 @@
+package policies
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"sluice/internal/strictyaml"
+	"sluice/validation"
+)
+
+// Version is the only policy file format this package reads.
+const Version = 1
+
+// Policy is a written policy, decoded and checked. The package doc lists
+// every key with what its absence means.
+type Policy struct {
+	Version     int             `yaml:"version"`
+	Name        string          `yaml:"name"`
+	Description string          `yaml:"description"`
+	Risk        Risk            `yaml:"risk"`
+	Support     Support         `yaml:"support"`
+	MinMove     MinMove         `yaml:"min_move"`
+	Evidence    EvidenceRules   `yaml:"evidence"`
+	Roles       map[string]Role `yaml:"roles"`
+	Signoffs    []SignoffRule   `yaml:"signoffs"`
+
+	// Source names where the policy came from: the file path given to Load
+	// or Parse, or "preset:NAME".
+	Source string `yaml:"-"`
+	// Dir is the directory key file paths are relative to: the policy
+	// file's directory after Load, "" (the working directory) otherwise.
+	Dir string `yaml:"-"`
+	// Raw is the exact bytes the policy was parsed from, for hashing.
+	Raw []byte `yaml:"-"`
+}
+
+// Risk holds the limits every move's gain distribution must meet. Gains and
+// floors are money over the plan's horizon. A nil floor is no floor.
+type Risk struct {
+	MaxLossProbability float64  `yaml:"max_loss_probability"`
+	DownsideLevel      float64  `yaml:"downside_level"`
+	DownsideFloor      *float64 `yaml:"downside_floor"`
+	DownsideFloorShare *float64 `yaml:"downside_floor_share"`
+	CVaRLevel          float64  `yaml:"cvar_level"`
+	CVaRFloor          *float64 `yaml:"cvar_floor"`
+	CVaRFloorShare     *float64 `yaml:"cvar_floor_share"`
+	MinExpectedGain    *float64 `yaml:"min_expected_gain"`
+}
+
+// DownsideFloorFor returns the binding floor for the downside quantile of a
+// move that moves moved money over the horizon (the higher of the two floors
+// when both are given), and false when the policy sets none.
+func (r Risk) DownsideFloorFor(moved float64) (float64, bool) {
+	return floorFor(r.DownsideFloor, r.DownsideFloorShare, moved)
+}
+
+// CVaRFloorFor is DownsideFloorFor for the CVaR floor.
+func (r Risk) CVaRFloorFor(moved float64) (float64, bool) {
+	return floorFor(r.CVaRFloor, r.CVaRFloorShare, moved)
+}
+
+func floorFor(abs, share *float64, moved float64) (float64, bool) {
+	f, ok := math.Inf(-1), false
+	if abs != nil {
+		f, ok = *abs, true
+	}
+	if share != nil {
+		f, ok = max(f, *share*moved), true
+	}
+	return f, ok
+}
+
+// Support is the support guard: the band of weekly spend, per channel, that
+// the data has seen well enough to trust.
+type Support struct {
+	HighMultiple float64 `yaml:"high_multiple"` // × highest 4-week average observed
+	LowMultiple  float64 `yaml:"low_multiple"`  // × lowest 4-week average observed; 0: no floor
+}
+
+// MinMove is the smallest plan worth making; the larger threshold applies.
+type MinMove struct {
+	PerWeek      float64 `yaml:"per_week"`
+	ShareOfSpend float64 `yaml:"share_of_spend"`
+}
+
+// Threshold returns the smallest meaningful money moved per week when the
+// current plan spends currentTotal per week.
+func (m MinMove) Threshold(currentTotal float64) float64 {
+	return max(m.PerWeek, m.ShareOfSpend*currentTotal)
+}
+
+// Action is what a failed or warning check does to the decision.
+type Action string
+
+const (
+	Refuse Action = "refuse" // the decision is refused
+	Cap    Action = "cap"    // moves are held inside the exploration band
+	Warn   Action = "warn"   // the decision carries the warning, nothing else
+)
+
+// EvidenceRules say what each kind of evidence does.
+type EvidenceRules struct {
+	OnFail          Action                           `yaml:"on_fail"`
+	OnWarn          Action                           `yaml:"on_warn"`
+	ExplorationBand float64                          `yaml:"exploration_band"`
+	Families        map[validation.Family]ActionRule `yaml:"families"`
+	Checks          map[string]ActionRule            `yaml:"checks"`
+	Waivers         map[string]WaiverRight           `yaml:"waivers"`
+}
+
+// ActionRule overrides the actions for a family or a named check; an empty
+// field inherits.
+type ActionRule struct {
+	OnFail Action `yaml:"on_fail"`
+	OnWarn Action `yaml:"on_warn"`
+}
+
+// WaiverRight lists what a role may waive.
+type WaiverRight struct {
+	Families []validation.Family `yaml:"families"`
+	Checks   []string            `yaml:"checks"`
+}
+
+// ActionFor returns what check c does under the policy: "" for a pass, else
+// the check's own rule, its family's, or the default, in that order.
+func (e EvidenceRules) ActionFor(c validation.Check) Action {
+	pick := func(r ActionRule) Action {
+		if c.Status == validation.Fail {
+			return r.OnFail
+		}
+		return r.OnWarn
+	}
+	switch c.Status {
+	case validation.Fail, validation.Warn:
+	default:
+		return ""
+	}
+	if a := pick(e.Checks[c.Name]); a != "" {
+		return a
+	}
+	if a := pick(e.Families[c.Family]); a != "" {
+		return a
+	}
+	if a := pick(ActionRule{e.OnFail, e.OnWarn}); a != "" {
+		return a
+	}
+	if c.Status == validation.Fail {
+		return Refuse
+	}
+	return Warn
+}
+
+// MayWaive reports whether role may waive check c, by name or by family.
+func (e EvidenceRules) MayWaive(role string, c validation.Check) bool {
+	w, ok := e.Waivers[role]
+	if !ok {
+		return false
+	}
+	for _, n := range w.Checks {
+		if n == c.Name {
+			return true
+		}
+	}
+	for _, f := range w.Families {
+		if f == c.Family {
+			return true
+		}
+	}
+	return false
+}
+
+// Role is a group of people who sign, with their public keys.
+type Role struct {
+	Description string   `yaml:"description"`
+	Keys        []string `yaml:"keys"` // PKIX PEM text, or a path relative to Policy.Dir
+}
+
+// KeyPEM returns the PEM bytes of every key of role, reading the entries
+// that are file paths (relative to p.Dir). It does not parse the PEM.
+func (p *Policy) KeyPEM(role string) ([][]byte, error) {
+	r, ok := p.Roles[role]
+	if !ok {
+		return nil, fmt.Errorf("policies: %s: no role %q", p.Source, role)
+	}
+	out := make([][]byte, 0, len(r.Keys))
+	for _, k := range r.Keys {
+		if isInlinePEM(k) {
+			out = append(out, []byte(k))
+			continue
+		}
+		b, err := os.ReadFile(p.keyPath(k))
+		if err != nil {
+			return nil, fmt.Errorf("policies: %s: roles.%s.keys: %w", p.Source, role, err)
+		}
+		out = append(out, b)
+	}
+	return out, nil
+}
+
+func (p *Policy) keyPath(k string) string {
+	if filepath.IsAbs(k) || p.Dir == "" {
+		return k
+	}
+	return filepath.Join(p.Dir, k)
+}
+
+func isInlinePEM(s string) bool { return strings.Contains(s, "-----BEGIN ") }
+
+// SignoffRule names roles that must sign when its condition holds.
+type SignoffRule struct {
+	Name    string    `yaml:"name"`
+	Explain string    `yaml:"explain"`
+	Roles   []string  `yaml:"roles"`
+	When    Condition `yaml:"when"`
+}
+
+// Condition is one test on the approved plan; exactly one field is set.
+// Money is as in the package doc.
+type Condition struct {
+	Always          bool     `yaml:"always"`
+	MovedAbove      *float64 `yaml:"moved_above"`       // money moved over the horizon
+	MovedShareAbove *float64 `yaml:"moved_share_above"` // money moved per week / current total weekly spend
+	ChangeAbove     *float64 `yaml:"change_above"`      // |approved − current| / current, any channel
+	CutBelow        *float64 `yaml:"cut_below"`         // approved weekly spend of a cut channel
+	CutBelowSupport bool     `yaml:"cut_below_support"` // a cut channel below its lowest 4-week average
+	AnyWaiver       bool     `yaml:"any_waiver"`
+	VerdictIn       []string `yaml:"verdict_in"`
+}
+
+// Kinds returns the keys of the conditions that are set.
+func (c Condition) Kinds() []string {
+	var k []string
+	add := func(set bool, name string) {
+		if set {
+			k = append(k, name)
+		}
+	}
+	add(c.Always, "always")
+	add(c.MovedAbove != nil, "moved_above")
+	add(c.MovedShareAbove != nil, "moved_share_above")
+	add(c.ChangeAbove != nil, "change_above")
+	add(c.CutBelow != nil, "cut_below")
+	add(c.CutBelowSupport, "cut_below_support")
+	add(c.AnyWaiver, "any_waiver")
+	add(len(c.VerdictIn) > 0, "verdict_in")
+	return k
+}
+
+// Verdicts are the verdict names a verdict_in condition may use.
+var Verdicts = []string{"approve", "downsize", "refuse"}
+
+// Families are the evidence families a policy may name.
+var Families = []validation.Family{
+	validation.Accuracy, validation.Recovery, validation.Stability,
+	validation.Lift, validation.Reconciliation,
+}
+
+// Load reads, decodes and checks the policy file at path. Key file paths in
+// it are taken relative to the file and must exist.
+func Load(path string) (*Policy, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	p, err := Parse(data, path)
+	if err != nil {
+		return nil, err
+	}
+	p.Dir = filepath.Dir(path)
+	for _, role := range sortedKeys(p.Roles) {
+		for i, k := range p.Roles[role].Keys {
+			if isInlinePEM(k) {
+				continue
+			}
+			if _, err := os.Stat(p.keyPath(k)); err != nil {
+				return nil, p.errorAt(data, path, []any{"roles", role, "keys", i},
+					fmt.Sprintf("key file %q: %v", k, errorsUnwrapPath(err)))
+			}
+		}
+	}
+	return p, nil
+}
+
+// errorsUnwrapPath drops the path from an *os.PathError (it is in the message
+// already).
+func errorsUnwrapPath(err error) error {
+	var pe *os.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	return err
+}
+
+// Parse decodes and checks a policy from data; source names it in errors.
+// Errors are *strictyaml.Error values carrying file, line, column and the key
+// path. Besides unknown keys and wrong types it refuses: a version other than
+// 1; max_loss_probability outside (0,1); downside_level outside (0,0.5);
+// cvar_level outside (0,0.5]; a share floor outside [-1,1]; high_multiple
+// below 1; low_multiple outside [0,1]; a negative min_move; an exploration
+// band outside [0,1]; an action other than refuse, cap, warn; an unknown
+// family; a waiver or sign-off naming an undefined role; a sign-off rule
+// without a name, with a name used before, without roles, or whose when has
+// not exactly one condition; an unknown verdict; any number not finite.
+func Parse(data []byte, source string) (*Policy, error) {
+	var p Policy
+	if err := strictyaml.Decode(data, source, &p); err != nil {
+		var e *strictyaml.Error
+		if errors.As(err, &e) && e.Path == "" && e.Line > 0 {
+			if path, col, ok := pathAtLine(data, e.Line); ok {
+				e.Path, e.Column = pathString(path), col
+			}
+		}
+		return nil, err
+	}
+	if prob := p.check(); prob != nil {
+		return nil, p.errorAt(data, source, prob.path, prob.msg)
+	}
+	p.Source = source
+	p.Raw = append([]byte(nil), data...)
+	if p.Name == "" {
+		p.Name = strings.TrimSuffix(filepath.Base(source), filepath.Ext(source))
+	}
+	return &p, nil
+}
+
+type problem struct {
+	path []any // string keys and int indices
+	msg  string
+}
+
+func (p *Policy) errorAt(data []byte, source string, path []any, msg string) error {
+	line, col := locate(data, path)
+	return &strictyaml.Error{File: source, Line: line, Column: col, Path: pathString(path), Msg: msg}
+}
+
+func pathString(path []any) string {
+	var b strings.Builder
+	for _, s := range path {
+		switch s := s.(type) {
+		case int:
+			fmt.Fprintf(&b, "[%d]", s)
+		default:
+			if b.Len() > 0 {
+				b.WriteByte('.')
+			}
+			fmt.Fprint(&b, s)
+		}
+	}
+	return b.String()
+}
+
+// check returns the first contradiction in p, in the order of the schema.
+func (p *Policy) check() *problem {
+	var first *problem
+	bad := func(msg string, path ...any) {
+		if first == nil {
+			first = &problem{path, msg}
+		}
+	}
+	finite := func(v float64, path ...any) bool {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			bad("must be a finite number", path...)
+			return false
+		}
+		return true
+	}
+	optFinite := func(v *float64, path ...any) bool { return v == nil || finite(*v, path...) }
+
+	if p.Version != Version {
+		bad(fmt.Sprintf("must be %d (the policy format this version of sluice reads), got %d", Version, p.Version), "version")
+	}
+
+	r := p.Risk
+	if finite(r.MaxLossProbability, "risk", "max_loss_probability") &&
+		!(r.MaxLossProbability > 0 && r.MaxLossProbability < 1) {
+		bad(fmt.Sprintf("must be a probability strictly between 0 and 1, got %v", r.MaxLossProbability), "risk", "max_loss_probability")
+	}
+	if finite(r.DownsideLevel, "risk", "downside_level") && !(r.DownsideLevel > 0 && r.DownsideLevel < 0.5) {
+		bad(fmt.Sprintf("must be a lower-tail quantile level strictly between 0 and 0.5 (e.g. 0.05), got %v", r.DownsideLevel), "risk", "downside_level")
+	}
+	optFinite(r.DownsideFloor, "risk", "downside_floor")
+	if optFinite(r.DownsideFloorShare, "risk", "downside_floor_share") && r.DownsideFloorShare != nil &&
+		(*r.DownsideFloorShare < -1 || *r.DownsideFloorShare > 1) {
+		bad(fmt.Sprintf("must be a share of the money moved in [-1, 1], got %v", *r.DownsideFloorShare), "risk", "downside_floor_share")
+	}
+	if finite(r.CVaRLevel, "risk", "cvar_level") && !(r.CVaRLevel > 0 && r.CVaRLevel <= 0.5) {
+		bad(fmt.Sprintf("must be a tail share in (0, 0.5] (e.g. 0.05), got %v", r.CVaRLevel), "risk", "cvar_level")
+	}
+	optFinite(r.CVaRFloor, "risk", "cvar_floor")
+	if optFinite(r.CVaRFloorShare, "risk", "cvar_floor_share") && r.CVaRFloorShare != nil &&
+		(*r.CVaRFloorShare < -1 || *r.CVaRFloorShare > 1) {
+		bad(fmt.Sprintf("must be a share of the money moved in [-1, 1], got %v", *r.CVaRFloorShare), "risk", "cvar_floor_share")
+	}
+	optFinite(r.MinExpectedGain, "risk", "min_expected_gain")
+
+	s := p.Support
+	if finite(s.HighMultiple, "support", "high_multiple") && !(s.HighMultiple >= 1) {
+		bad(fmt.Sprintf("must be at least 1 (a multiple of the highest 4-week average observed), got %v", s.HighMultiple), "support", "high_multiple")
+	}
+	if finite(s.LowMultiple, "support", "low_multiple") && !(s.LowMultiple >= 0 && s.LowMultiple <= 1) {
+		bad(fmt.Sprintf("must be in [0, 1] (a multiple of the lowest 4-week average observed), got %v", s.LowMultiple), "support", "low_multiple")
+	}
+
+	if finite(p.MinMove.PerWeek, "min_move", "per_week") && p.MinMove.PerWeek < 0 {
+		bad("must not be negative", "min_move", "per_week")
+	}
+	if finite(p.MinMove.ShareOfSpend, "min_move", "share_of_spend") && !(p.MinMove.ShareOfSpend >= 0 && p.MinMove.ShareOfSpend <= 1) {
+		bad(fmt.Sprintf("must be a share in [0, 1], got %v", p.MinMove.ShareOfSpend), "min_move", "share_of_spend")
+	}
+
+	e := p.Evidence
+	action := func(a Action, path ...any) {
+		switch a {
+		case "", Refuse, Cap, Warn:
+		default:
+			bad(fmt.Sprintf("unknown action %q (known: refuse, cap, warn)", a), path...)
+		}
+	}
+	action(e.OnFail, "evidence", "on_fail")
+	action(e.OnWarn, "evidence", "on_warn")
+	if finite(e.ExplorationBand, "evidence", "exploration_band") && !(e.ExplorationBand >= 0 && e.ExplorationBand <= 1) {
+		bad(fmt.Sprintf("must be a share of current spend in [0, 1] (0.10 = ±10%%), got %v", e.ExplorationBand), "evidence", "exploration_band")
+	}
+	for _, f := range sortedKeys(e.Families) {
+		if !knownFamily(f) {
+			bad(unknownFamily(f), "evidence", "families", string(f))
+		}
+		action(e.Families[f].OnFail, "evidence", "families", string(f), "on_fail")
+		action(e.Families[f].OnWarn, "evidence", "families", string(f), "on_warn")
+	}
+	for _, n := range sortedKeys(e.Checks) {
+		action(e.Checks[n].OnFail, "evidence", "checks", n, "on_fail")
+		action(e.Checks[n].OnWarn, "evidence", "checks", n, "on_warn")
+	}
+	for _, role := range sortedKeys(e.Waivers) {
+		if _, ok := p.Roles[role]; !ok {
+			bad(undefinedRole(role, p.Roles), "evidence", "waivers", role)
+		}
+		for i, f := range e.Waivers[role].Families {
+			if !knownFamily(f) {
+				bad(unknownFamily(f), "evidence", "waivers", role, "families", i)
+			}
+		}
+		for i, n := range e.Waivers[role].Checks {
+			if strings.TrimSpace(n) == "" {
+				bad("check name must not be empty", "evidence", "waivers", role, "checks", i)
+			}
+		}
+	}
+
+	for _, role := range sortedKeys(p.Roles) {
+		if strings.TrimSpace(role) != role || role == "" {
+			bad("role name must be non-empty, without surrounding spaces", "roles", role)
+		}
+		for i, k := range p.Roles[role].Keys {
+			if strings.TrimSpace(k) == "" {
+				bad("key must be PEM text or a file path, got an empty string", "roles", role, "keys", i)
+			}
+		}
+	}
+
+	names := map[string]int{}
+	for i, rule := range p.Signoffs {
+		if strings.TrimSpace(rule.Name) == "" {
+			bad("every sign-off rule needs a name (it is given as the reason)", "signoffs", i, "name")
+		} else if j, dup := names[rule.Name]; dup {
+			bad(fmt.Sprintf("name %q is already used by signoffs[%d]", rule.Name, j), "signoffs", i, "name")
+		} else {
+			names[rule.Name] = i
+		}
+		if len(rule.Roles) == 0 {
+			bad("list the roles that must sign", "signoffs", i, "roles")
+		}
+		for j, role := range rule.Roles {
+			if _, ok := p.Roles[role]; !ok {
+				bad(undefinedRole(role, p.Roles), "signoffs", i, "roles", j)
+			}
+		}
+		kinds := rule.When.Kinds()
+		if len(kinds) != 1 {
+			bad(fmt.Sprintf("give exactly one condition (always, moved_above, moved_share_above, change_above, cut_below, cut_below_support, any_waiver, verdict_in), found %d%s",
+				len(kinds), listed(kinds)), "signoffs", i, "when")
+		}
+		w := rule.When
+		for _, c := range []struct {
+			v    *float64
+			key  string
+			frac bool
+		}{{w.MovedAbove, "moved_above", false}, {w.MovedShareAbove, "moved_share_above", true},
+			{w.ChangeAbove, "change_above", true}, {w.CutBelow, "cut_below", false}} {
+			if c.v != nil && finite(*c.v, "signoffs", i, "when", c.key) && *c.v < 0 {
+				bad("must not be negative", "signoffs", i, "when", c.key)
+			}
+		}
+		for j, v := range w.VerdictIn {
+			if !contains(Verdicts, v) {
+				bad(fmt.Sprintf("unknown verdict %q (known: %s)", v, strings.Join(Verdicts, ", ")), "signoffs", i, "when", "verdict_in", j)
+			}
+		}
+	}
+	return first
+}
+
+func listed(k []string) string {
+	if len(k) == 0 {
+		return ""
+	}
+	return " (" + strings.Join(k, ", ") + ")"
+}
+
+func knownFamily(f validation.Family) bool { return contains(Families, f) }
+
+func unknownFamily(f validation.Family) string {
+	known := make([]string, len(Families))
+	for i, f := range Families {
+		known[i] = string(f)
+	}
+	return fmt.Sprintf("unknown check family %q (known: %s)", f, strings.Join(known, ", "))
+}
+
+func undefinedRole(role string, roles map[string]Role) string {
+	known := sortedKeys(roles)
+	if len(known) == 0 {
+		return fmt.Sprintf("role %q is not defined (the policy defines no roles)", role)
+	}
+	return fmt.Sprintf("role %q is not defined under roles (defined: %s)", role, strings.Join(known, ", "))
+}
