@@ -61,32 +61,12 @@ func SummarizeDraws(d *model.Design, draws []model.Params, valuePerKPI float64) 
 // GridPoints is the number of spend levels of a response band.
 const GridPoints = 41
 
-// MaxFourWeekSpend returns the highest mean of four consecutive weeks of x
-// (of all weeks if fewer): the top of the observed spend range.
-func MaxFourWeekSpend(x []float64) float64 {
-	w := min(4, len(x))
-	if w == 0 {
-		return 0
-	}
-	var s float64
-	for _, v := range x[:w] {
-		s += v
-	}
-	best := s
-	for t := w; t < len(x); t++ {
-		s += x[t] - x[t-w]
-		best = max(best, s)
-	}
-	return best / float64(w)
-}
-
-// SpendGrid returns points evenly spaced weekly spend levels from 0 to
-// twice MaxFourWeekSpend(x). points must be at least 2.
-func SpendGrid(x []float64, points int) []float64 {
+// SpendGrid returns points evenly spaced weekly spend levels from 0 to top.
+// points must be at least 2.
+func SpendGrid(top float64, points int) []float64 {
 	if points < 2 {
 		panic("uncertainty: spend grid needs at least 2 points")
 	}
-	top := 2 * MaxFourWeekSpend(x)
 	g := make([]float64, points)
 	for i := range g {
 		g[i] = top * (float64(i) / float64(points-1)) // ends exactly at top
@@ -108,17 +88,20 @@ type ChannelResponse struct {
 }
 
 // ResponseBands evaluates every draw's horizon response (model.Design.
-// NewCurves with horizon h) on each channel's SpendGrid of GridPoints
-// levels and summarizes it per level. draws must not be empty.
+// NewCurves with horizon h) at GridPoints weekly spend levels per channel,
+// from 0 to twice the highest 4-week average spend the data has seen
+// (model.Design.Support, the top of the support guard's range), and
+// summarizes it per level. draws must not be empty.
 func ResponseBands(d *model.Design, draws []model.Params, h int) []ChannelResponse {
 	if len(draws) == 0 {
 		panic("uncertainty: ResponseBands of no draws")
 	}
 	curves := d.NewCurves(draws, h)
+	_, high := d.Support()
 	out := make([]ChannelResponse, len(d.Spec.Channels))
 	r := make([]float64, len(draws))
 	for k, c := range d.Spec.Channels {
-		grid := SpendGrid(d.Spend[k], GridPoints)
+		grid := SpendGrid(2*high[k], GridPoints)
 		cr := ChannelResponse{Name: c.Name, Points: make([]ResponsePoint, len(grid))}
 		for i, w := range grid {
 			for j := range draws {

@@ -9,30 +9,29 @@ import (
 	"sluice/model"
 )
 
-// Band quantiles are Hyndman–Fan type 8 and the top of the spend range is
-// the largest 4-week mean: checked against numpy (testdata/bands_ref.py,
-// Debian python3-numpy; quantile method "median_unbiased" is numpy's name
-// for definition 8) on samples of the sizes the bootstrap produces, with
-// ties, and on spend series with dark weeks and fewer than 4 weeks.
-// Tolerance rel 1e-12 (summation order only).
+// Band quantiles are Hyndman–Fan type 8, and the response grid's top is
+// twice the largest 4-week mean spend: checked against numpy (testdata/
+// bands_ref.py, Debian python3-numpy; quantile method "median_unbiased" is
+// numpy's name for definition 8) on samples of the sizes the bootstrap
+// produces, with ties, and on the spend of a simulated world's channels
+// (dark weeks included) and a series shorter than 4 weeks. Tolerance rel
+// 1e-12 (summation order only).
 func TestBandsNumpy(t *testing.T) {
 	type input struct {
 		X     []float64 `json:"x"`
 		Spend []float64 `json:"spend"`
 	}
+	w := testWorld(t, 114)
+	short := &model.Design{Spend: [][]float64{{120, 0, 340}}}
+	designs := []*model.Design{w.d, w.d, w.d, w.d, short}
 	var cases []input
-	for i, n := range []int{7, 20, 200, 987} {
+	for i, n := range []int{7, 20, 200, 987, 3} {
 		rng := Stream(88, i)
-		c := input{X: make([]float64, n), Spend: make([]float64, 3+n%50)}
+		c := input{X: make([]float64, n), Spend: designs[i].Spend[i%4]}
 		for j := range c.X {
 			c.X[j] = math.Exp(rng.NormFloat64())
 			if j%5 == 0 {
 				c.X[j] = 1 // ties
-			}
-		}
-		for j := range c.Spend {
-			if rng.Float64() > 0.2 {
-				c.Spend[j] = 1000 * rng.Float64()
 			}
 		}
 		cases = append(cases, c)
@@ -55,7 +54,9 @@ func TestBandsNumpy(t *testing.T) {
 		for j, name := range []string{"median", "p05", "p10", "p90", "p95"} {
 			checkRel(t, name, got[j], want[i].Band[j], 1e-12)
 		}
-		checkRel(t, "max 4-week spend", MaxFourWeekSpend(c.Spend), want[i].Max4, 1e-12)
+		_, high := designs[i].Support()
+		grid := SpendGrid(2*high[i%4], GridPoints)
+		checkRel(t, "grid top / 2", grid[GridPoints-1]/2, want[i].Max4, 1e-12)
 	}
 }
 
@@ -78,7 +79,8 @@ func TestResponseBands(t *testing.T) {
 		if len(c.Points) != GridPoints || c.Name != w.d.Spec.Channels[k].Name {
 			t.Fatalf("%s: %d points", c.Name, len(c.Points))
 		}
-		top := 2 * MaxFourWeekSpend(w.d.Spend[k])
+		_, high := w.d.Support()
+		top := 2 * high[k]
 		if c.Points[0].Spend != 0 || c.Points[GridPoints-1].Spend != top {
 			t.Errorf("%s: grid %g..%g, want 0..%g", c.Name, c.Points[0].Spend, c.Points[GridPoints-1].Spend, top)
 		}
