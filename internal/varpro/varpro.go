@@ -15,6 +15,7 @@ import (
 	"errors"
 	"math"
 
+	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 
 	"sluice/internal/lsq"
@@ -43,8 +44,10 @@ type Settings struct {
 	MaxEvaluations int     // objective evaluations per start; 0 means 400
 	RelTol         float64 // relative reduction of the RSS that counts as no progress; 0 means 1e-12
 	// GradTol is the largest cosine between the residual and a Jacobian
-	// column accepted as stationary once steps stop reducing the RSS; the
-	// search stops early when it is 100 times smaller. 0 means 1e-6.
+	// column accepted as stationary once steps stop reducing the RSS
+	// (round-off and the kinks of the non-negativity constraints keep it
+	// from reaching zero); 0 means 1e-5. The search stops early, before it
+	// stalls, when the cosine falls below EarlyGradTol.
 	GradTol float64
 }
 
@@ -83,6 +86,10 @@ type Result struct {
 	Iterations  int
 }
 
+// EarlyGradTol is the cosine below which a search stops before stalling:
+// clearly stationary.
+const EarlyGradTol = 1e-8
+
 // ErrBadStart reports a start outside the bounds or an RSS that is not finite there.
 var ErrBadStart = errors.New("varpro: start is outside the bounds or gives a non-finite objective")
 
@@ -91,8 +98,8 @@ var ErrBadStart = errors.New("varpro: start is outside the bounds or gives a non
 type Solver struct {
 	p       *Problem
 	n, nf   int
-	qf      *mat.Dense // orthonormal basis of span(Fixed), n×nf
-	yt      []float64  // P_F⊥ y
+	qf      [][]float64 // orthonormal basis of span(Fixed): nf columns of length n
+	yt      []float64   // P_F⊥ y
 	cols    [][]float64
 	colsT   [][]float64 // P_F⊥ M_l
 	d       [][]float64
@@ -101,7 +108,6 @@ type Solver struct {
 	coef    []float64
 	resid   []float64
 	gsolver lsq.GramSolver
-	work    []float64
 	qa      [][]float64 // orthonormal basis of the active varying columns
 	qbuf    [][]float64
 }
@@ -120,7 +126,10 @@ func NewSolver(p *Problem) (*Solver, error) {
 		qr.Factorize(p.Fixed)
 		var q mat.Dense
 		qr.QTo(&q)
-		s.qf = mat.DenseCopyOf(q.Slice(0, n, 0, c))
+		s.qf = alloc(c, n)
+		for j := range c {
+			mat.Col(s.qf[j], j, &q)
+		}
 		s.nf = c
 		var rr mat.Dense
 		qr.RTo(&rr)
@@ -129,7 +138,6 @@ func NewSolver(p *Problem) (*Solver, error) {
 				return nil, errors.New("varpro: the fixed columns are linearly dependent")
 			}
 		}
-		s.work = make([]float64, c)
 		s.projectFixed(s.yt)
 	}
 	L := p.NumVarying
@@ -154,30 +162,11 @@ func alloc(k, n int) [][]float64 {
 	return out
 }
 
-// projectFixed replaces v by P_F⊥ v.
+// projectFixed replaces v by P_F⊥ v (the basis is orthonormal, so the
+// projections can be taken one column at a time).
 func (s *Solver) projectFixed(v []float64) {
-	if s.qf == nil {
-		return
-	}
-	raw := s.qf.RawMatrix()
-	w := s.work
-	for j := range s.nf {
-		w[j] = 0
-	}
-	for i := range s.n {
-		row := raw.Data[i*raw.Stride : i*raw.Stride+s.nf]
-		vi := v[i]
-		for j, q := range row {
-			w[j] += q * vi
-		}
-	}
-	for i := range s.n {
-		row := raw.Data[i*raw.Stride : i*raw.Stride+s.nf]
-		var acc float64
-		for j, q := range row {
-			acc += q * w[j]
-		}
-		v[i] -= acc
+	for _, q := range s.qf {
+		axpy(-dot(q, v), q, v)
 	}
 }
 
@@ -285,11 +274,7 @@ func (s *Solver) jacobian(theta []float64, jc [][]float64) {
 	}
 }
 
-func axpy(a float64, x, y []float64) {
-	for i, v := range x {
-		y[i] += a * v
-	}
-}
+func axpy(a float64, x, y []float64) { floats.AddScaled(y, a, x) }
 
 func scale(a float64, x []float64) {
 	for i := range x {
@@ -324,7 +309,7 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 	}
 	gradTol := set.GradTol
 	if gradTol == 0 {
-		gradTol = 1e-6
+		gradTol = 1e-5
 	}
 	theta := append([]float64(nil), start...)
 	for j, v := range theta {
@@ -371,7 +356,7 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 		}
 		// Stop early only when clearly stationary; near the round-off floor
 		// the search stalls instead and the looser test below decides.
-		if len(free) == 0 || maxCos <= gradTol*1e-2 || rss == 0 {
+		if len(free) == 0 || maxCos <= EarlyGradTol || rss == 0 {
 			status = Converged
 			if degenerate(jtj, nonzero(jtj)) {
 				status = Degenerate
@@ -555,13 +540,7 @@ func (s *Solver) fixedCoef() []float64 {
 	return append([]float64(nil), x.RawVector().Data...)
 }
 
-func dot(a, b []float64) float64 {
-	var s float64
-	for i, v := range a {
-		s += v * b[i]
-	}
-	return s
-}
+func dot(a, b []float64) float64 { return floats.Dot(a, b) }
 
 // StdErrors returns the asymptotic standard errors of the fixed
 // coefficients, the varying coefficients and θ at a result, from
