@@ -10,7 +10,6 @@ import (
 	"slices"
 
 	"sluice/gate"
-	"sluice/model"
 	"sluice/policies"
 	"sluice/validation"
 )
@@ -26,26 +25,6 @@ const Caution = "Every figure here is an estimate from a statistical model fitte
 type Input struct {
 	Path   string `json:"path"`
 	SHA256 string `json:"sha256"`
-}
-
-// Band is a KPI forecast band: the 5th, 50th and 95th percentiles.
-type Band struct {
-	P05 []float64 `json:"p05"`
-	P50 []float64 `json:"p50"`
-	P95 []float64 `json:"p95"`
-}
-
-// Forecast is what the decision expects to happen over the horizon under
-// the approved plan; next quarter's reconciliation tests it.
-type Forecast struct {
-	Start    string             `json:"start"` // first week after the data, YYYY-MM-DD
-	Weeks    int                `json:"weeks"`
-	Plan     map[string]float64 `json:"plan"`     // approved weekly spend per channel
-	Controls map[string]float64 `json:"controls"` // the controls the forecast assumed
-	Params   model.Params       `json:"params"`   // the point fit the forecast re-runs with
-	Sigma    float64            `json:"sigma"`    // residual SD of the fit
-	Band     Band               `json:"band"`     // weekly KPI
-	Total    [3]float64         `json:"total"`    // p05, p50, p95 of the KPI summed over the horizon
 }
 
 // Proposal is the allocator's side of the decision.
@@ -81,7 +60,12 @@ type Decision struct {
 	Evidence     map[string]int   `json:"evidence_summary"`
 	Proposal     Proposal         `json:"proposal"`
 	gate.Decision
-	Forecast Forecast `json:"forecast"`
+	// Forecast is what the decision expects over the horizon under the
+	// approved plan, in the form next quarter's reconciliation reads.
+	Forecast validation.Forecast `json:"forecast"`
+	// ForecastTotal is the 5th, 50th and 95th percentile of the KPI summed
+	// over the horizon.
+	ForecastTotal [3]float64 `json:"forecast_total"`
 	Caution  string   `json:"caution"`
 }
 

@@ -227,35 +227,15 @@ func curvesCommand() *cli.Command {
 			if path == "" {
 				return withHint(errors.New("curves needs --draws"), "pass --draws draws.jsonl (written by sluice bootstrap)")
 			}
-			d, err := uncertainty.ReadDraws(path)
-			if err != nil {
-				return err
-			}
 			in, err := loadModelInput(o)
 			if err != nil {
 				return err
 			}
-			if err := d.Check(in.DataSHA256, in.SpecSHA256, in.Spec); err != nil {
-				var me *uncertainty.MismatchError
-				if errors.As(err, &me) {
-					named := *me
-					switch me.What {
-					case "data":
-						named.GivenName = in.DataPath
-					case "spec":
-						named.GivenName = "this spec"
-						if s := o.String("spec"); s != "" {
-							named.GivenName = s
-						}
-					}
-					return withHint(&named, "pass the --data, --spec and model flags the draws were made with")
-				}
+			d, err := loadDraws(o, in, path)
+			if err != nil {
 				return err
 			}
 			params := d.Params()
-			if len(params) == 0 {
-				return fmt.Errorf("%s: all %d replicates failed (first: %s)", path, len(d.Replicates), d.Replicates[0].Reason)
-			}
 			bands := uncertainty.SummarizeDraws(in.Design, params, in.ValuePerKPI)
 			if csvPath := o.String("csv"); csvPath != "" {
 				rb := uncertainty.ResponseBands(in.Design, params, in.Spec.Horizon)

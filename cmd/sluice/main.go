@@ -92,6 +92,7 @@ func newApp(stdout, stderr io.Writer) *cli.App {
 			mergeCommand(),
 			curvesCommand(),
 			validateCommand(),
+			allocateCommand(),
 			keygenCommand(),
 			signCommand(),
 		},

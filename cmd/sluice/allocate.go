@@ -1,0 +1,173 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"text/tabwriter"
+
+	"github.com/urfave/cli/v2"
+
+	"sluice/model"
+	"sluice/optimize"
+)
+
+func allocateCommand() *cli.Command {
+	return &cli.Command{
+		Name:  "allocate",
+		Usage: "propose next quarter's weekly spend per channel under the plan's constraints",
+		Flags: append(modelFlags(),
+			&cli.StringFlag{Name: "plan", Usage: "plan YAML: horizon, budget, per-channel bounds, groups, objective, margin"},
+			&cli.StringFlag{Name: "draws", Usage: "draws file from sluice bootstrap; without it the point fit alone is used (command line only)"},
+			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
+		),
+		Action: func(c *cli.Context) error {
+			o, err := newOpts(c)
+			if err != nil {
+				return err
+			}
+			in, err := loadModelInput(o)
+			if err != nil {
+				return err
+			}
+			planPath := o.String("plan")
+			if planPath == "" {
+				return withHint(errors.New("allocate needs --plan"), "write a plan.yaml (see README, \"The plan file\") and pass --plan plan.yaml")
+			}
+			plan, err := optimize.LoadPlan(planPath)
+			if err != nil {
+				return err
+			}
+			var draws []model.Params
+			var point model.Params
+			source := "the point fit only (no --draws given)"
+			if path := c.String("draws"); path != "" {
+				d, err := loadDraws(o, in, path)
+				if err != nil {
+					return err
+				}
+				draws, point = d.Params(), fullFitParams(d)
+				source = fmt.Sprintf("%d bootstrap draws of %s", len(draws), path)
+			} else {
+				fr, err := in.Design.Fit(in.Panel.KPI, model.FitSettings{Seed: in.Seed, Workers: in.Workers})
+				if err != nil {
+					return err
+				}
+				point = fr.Params
+				draws = []model.Params{point}
+			}
+			res, err := allocate(in, plan, draws, point)
+			if err != nil {
+				return err
+			}
+			out := newAllocateOutput(in, res, source, plan.HorizonWeeks)
+			if o.Bool("json") {
+				return printJSON(c.App.Writer, out)
+			}
+			printAllocation(c.App.Writer, out)
+			return nil
+		},
+	}
+}
+
+// allocate solves the plan over the draws, with the point fit's optimum
+// among the starts.
+func allocate(in *modelInput, plan *optimize.Plan, draws []model.Params, point model.Params) (*optimize.Result, error) {
+	prob, err := plan.Resolve(in.Spec.ChannelNames(), in.Design.CurrentSpend())
+	if err != nil {
+		return nil, err
+	}
+	h := plan.HorizonWeeks
+	prob.Response = in.Design.NewCurves(draws, h)
+	prob.Point = in.Design.NewCurves([]model.Params{point}, h)
+	return optimize.Solve(*prob, &optimize.Settings{Seed: in.Seed, Workers: in.Workers})
+}
+
+// allocateOutput is `sluice allocate --json`.
+type allocateOutput struct {
+	Tool         string             `json:"tool"`
+	Version      string             `json:"version"`
+	Seed         uint64             `json:"seed"`
+	Source       string             `json:"draws"`
+	Objective    string             `json:"objective"`
+	Budget       float64            `json:"budget"` // total spend over the horizon
+	Horizon      int                `json:"horizon_weeks"`
+	ExpectedGain float64            `json:"expected_gain"`
+	Channels     []allocatedChannel `json:"channels"`
+	KKT          kktOutput          `json:"kkt"`
+	Starts       int                `json:"starts"`
+	Agreed       int                `json:"starts_agreed"`
+	Status       string             `json:"status"`
+}
+
+type allocatedChannel struct {
+	Name         string  `json:"name"`
+	Current      float64 `json:"current"`
+	Proposed     float64 `json:"proposed"`
+	Change       float64 `json:"change"`
+	MROICurrent  float64 `json:"mroi_current"`
+	MROIProposed float64 `json:"mroi_proposed"`
+}
+
+type kktOutput struct {
+	OK           bool    `json:"ok"`
+	MaxViolation float64 `json:"max_violation"`
+	Multiplier   float64 `json:"multiplier"`
+	Detail       string  `json:"detail"`
+}
+
+func newAllocateOutput(in *modelInput, r *optimize.Result, source string, horizon int) allocateOutput {
+	out := allocateOutput{Tool: "sluice", Version: version, Seed: in.Seed, Source: source, Horizon: horizon,
+		Objective: r.Objective.String(), Budget: r.Spend, ExpectedGain: r.ExpectedGain,
+		KKT:    kktOutput{OK: r.KKT.OK, MaxViolation: r.KKT.MaxViolation, Multiplier: r.KKT.Multiplier, Detail: r.KKT.Detail},
+		Starts: len(r.Starts), Agreed: r.Agreed, Status: r.Status.String()}
+	for _, c := range r.Channels {
+		out.Channels = append(out.Channels, allocatedChannel{Name: c.Name, Current: c.Current, Proposed: c.Proposed,
+			Change: c.Change, MROICurrent: c.MROICurrent, MROIProposed: c.MROIProposed})
+	}
+	return out
+}
+
+func printAllocation(w io.Writer, a allocateOutput) {
+	fmt.Fprintf(w, "proposal over %s; objective %s; weekly spend and marginal ROI (profit per currency at the margin)\n\n", a.Source, a.Objective)
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintln(tw, "channel\tcurrent\tproposed\tchange\tmROI now\tmROI proposed\t")
+	for _, c := range a.Channels {
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%.2f\t%.2f\t\n", c.Name, money(c.Current), money(c.Proposed), signedMoney(c.Change), c.MROICurrent, c.MROIProposed)
+	}
+	tw.Flush()
+	fmt.Fprintf(w, "\nbudget %s over %d weeks; expected gain %s against the status quo\n", money(a.Budget), a.Horizon, signedMoney(a.ExpectedGain))
+	ok := "holds"
+	if !a.KKT.OK {
+		ok = "FAILS"
+	}
+	fmt.Fprintf(w, "optimality check %s (largest violation %.2g): %s; %d of %d starts agreed; %s\n", ok, a.KKT.MaxViolation, a.KKT.Detail, a.Agreed, a.Starts, a.Status)
+	fmt.Fprintln(w, "this is a proposal: `sluice propose` sizes each move to what the evidence supports")
+}
+
+// money formats currency with thousands separators and no decimals.
+func money(v float64) string {
+	neg := v < 0
+	if neg {
+		v = -v
+	}
+	s := fmt.Sprintf("%.0f", v)
+	var out []byte
+	for i, ch := range []byte(s) {
+		if i > 0 && (len(s)-i)%3 == 0 {
+			out = append(out, ',')
+		}
+		out = append(out, ch)
+	}
+	if neg {
+		return "-" + string(out)
+	}
+	return string(out)
+}
+
+func signedMoney(v float64) string {
+	if v > 0 {
+		return "+" + money(v)
+	}
+	return money(v)
+}

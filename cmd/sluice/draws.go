@@ -1,0 +1,81 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"os/signal"
+	"syscall"
+	"time"
+
+	"github.com/urfave/cli/v2"
+	"golang.org/x/term"
+
+	"sluice/model"
+	"sluice/uncertainty"
+)
+
+// loadDraws reads a draws file and checks it against the data and spec it
+// is used with, naming the files in a mismatch.
+func loadDraws(o *opts, in *modelInput, path string) (*uncertainty.Draws, error) {
+	d, err := uncertainty.ReadDraws(path)
+	if err != nil {
+		return nil, err
+	}
+	if err := d.Check(in.DataSHA256, in.SpecSHA256, in.Spec); err != nil {
+		var me *uncertainty.MismatchError
+		if errors.As(err, &me) {
+			named := *me
+			switch me.What {
+			case "data":
+				named.GivenName = in.DataPath
+			case "spec":
+				named.GivenName = "this spec"
+				if s := o.String("spec"); s != "" {
+					named.GivenName = s
+				}
+			}
+			return nil, withHint(&named, "pass the --data, --spec and model flags the draws were made with")
+		}
+		return nil, err
+	}
+	if len(d.Params()) == 0 {
+		return nil, fmt.Errorf("%s: all %d replicates failed (first: %s)", path, len(d.Replicates), d.Replicates[0].Reason)
+	}
+	return d, nil
+}
+
+// drawsFor returns the draws of the file given, or runs a bootstrap of n
+// replicates here when no file is given (progress on a terminal).
+func drawsFor(c *cli.Context, o *opts, in *modelInput, path string, n int, quiet bool) (*uncertainty.Draws, string, error) {
+	if path != "" {
+		d, err := loadDraws(o, in, path)
+		return d, path, err
+	}
+	ctx, stop := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	b := &uncertainty.Bootstrap{Design: in.Design, Y: in.Panel.KPI, Method: uncertainty.MovingBlock,
+		Draws: n, Seed: in.Seed, Workers: in.Workers}
+	var bar *replicateBar
+	if f, ok := c.App.ErrWriter.(*os.File); ok && !quiet && term.IsTerminal(int(f.Fd())) {
+		bar = &replicateBar{w: f, start: time.Now()}
+		b.Progress = bar.update
+	}
+	d, err := b.Run(ctx)
+	bar.finish()
+	if err != nil {
+		if ctx.Err() != nil {
+			return nil, "", errors.New("interrupted; nothing was written")
+		}
+		return nil, "", err
+	}
+	d.Header.ToolVersion = version
+	d.Header.Inputs = uncertainty.Inputs{DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256}
+	if len(d.Params()) == 0 {
+		return nil, "", fmt.Errorf("all %d bootstrap refits failed", n)
+	}
+	return d, "", nil
+}
+
+// fullFitParams is the point fit stored in a draws header.
+func fullFitParams(d *uncertainty.Draws) model.Params { return d.Header.FullFit.Params }
