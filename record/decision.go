@@ -66,7 +66,7 @@ type Decision struct {
 	// ForecastTotal is the 5th, 50th and 95th percentile of the KPI summed
 	// over the horizon.
 	ForecastTotal [3]float64 `json:"forecast_total"`
-	Caution  string   `json:"caution"`
+	Caution       string     `json:"caution"`
 }
 
 // MarshalDecision returns the record's bytes: indented JSON with a final
