@@ -31,6 +31,7 @@ type evidenceOutcome struct {
 	warnings []string
 	capAll   []string   // global caps: each channel is held in the exploration band
 	capChan  [][]string // channel caps, by channel index
+	holdChan [][]string // channel refusals: the channel stays at its current spend
 }
 
 func (o *evidenceOutcome) capped(k int) bool { return len(o.capAll) > 0 || len(o.capChan[k]) > 0 }
@@ -48,7 +49,7 @@ func (o *evidenceOutcome) acceptedWaivers() []WaiverUse {
 // reviewEvidence applies the policy's evidence rules and the waivers.
 func reviewEvidence(r Review) (*evidenceOutcome, error) {
 	rules := r.Policy.Evidence
-	out := &evidenceOutcome{capChan: make([][]string, len(r.Channels))}
+	out := &evidenceOutcome{capChan: make([][]string, len(r.Channels)), holdChan: make([][]string, len(r.Channels))}
 	band := "±" + pct(rules.ExplorationBand) + " of current spend"
 
 	lifted := make([]bool, len(r.Waivers)) // the waiver lifted something
@@ -75,6 +76,18 @@ func reviewEvidence(r Review) (*evidenceOutcome, error) {
 		case use.WaivedBy != "":
 			use.Effect = "waived by " + use.WaivedBy
 			out.warnings = append(out.warnings, what+"; waived by "+use.WaivedBy)
+		case use.Action == policies.Hold && global:
+			use.Effect = "holds every channel at its current spend"
+			for j := range out.holdChan {
+				out.holdChan[j] = append(out.holdChan[j], fmt.Sprintf("%s; the policy moves no channel when a %s check %s",
+					what, c.Family, statusWord(c.Status == validation.Fail)))
+			}
+		case use.Action == policies.Hold && k < 0:
+			return nil, fmt.Errorf("gate: evidence check %q is scoped to %q, which is not a channel of the review (channels: %v)", c.Name, c.Scope, r.Channels)
+		case use.Action == policies.Hold:
+			use.Effect = "holds " + c.Scope + " at its current spend"
+			out.holdChan[k] = append(out.holdChan[k], fmt.Sprintf("%s; the policy does not move a channel whose %s check %s",
+				what, c.Family, statusWord(c.Status == validation.Fail)))
 		case use.Action == policies.Refuse:
 			use.Effect = "refuses the decision"
 			out.refusals = append(out.refusals, fmt.Sprintf("%s; the policy refuses any move when a %s check %s", what, c.Family, statusWord(c.Status == validation.Fail)))

@@ -306,6 +306,12 @@ func guard(r Review, evid *evidenceOutcome, delta []float64) []channelCap {
 			}
 			cc.lo, cc.hi = max(cc.lo, eLo), min(cc.hi, eHi)
 		}
+		if len(evid.holdChan[k]) > 0 {
+			if wk != ck {
+				cc.reasons = append(cc.reasons, evid.holdChan[k]...)
+			}
+			cc.lo, cc.hi = ck, ck
+		}
 		switch {
 		case delta[k] > 0:
 			cc.frac = min(1, max(0, (cc.hi-ck)/delta[k]))

@@ -289,3 +289,23 @@ func slicesEqual(a, b []float64) bool {
 	}
 	return true
 }
+
+// A hold action keeps only the failed channel at its current spend; the
+// other channels still move (issue: channel-scoped failures limit only
+// that channel).
+func TestEvidenceHold(t *testing.T) {
+	pol := parsePolicy(t, strings.Replace(loose, "lift: {on_fail: cap}", "lift: {on_fail: hold}", 1))
+	proposed := []float64{9000, 5400, 8600}
+	r := makeReview(tight, proposed, 300, 8, pol)
+	r.Evidence = liftFail("video")
+	d := run(t, r)
+	if d.ApprovedPlan[1] != r.Current[1] {
+		t.Fatalf("video approved %v, want it held at %v", d.ApprovedPlan[1], r.Current[1])
+	}
+	if d.Verdict == Refuse {
+		t.Fatalf("a channel hold refused the whole decision: %q", d.Reasons)
+	}
+	if !hasReason(d.Moves[1], "lift_video") {
+		t.Errorf("video reasons %q", d.Moves[1].Reasons)
+	}
+}

@@ -61,7 +61,9 @@
 //	                           spend; 0: none. The larger of the two applies.
 //
 //	evidence.on_fail           what a failed check does unless its family or
-//	                           name says otherwise: refuse | cap | warn;
+//	                           name says otherwise: refuse | hold | cap | warn
+//	                           (hold: the affected channel, or every channel for
+//	                           a global check, keeps its current spend);
 //	                           absent: refuse.
 //	evidence.on_warn           the same for a check that warns; absent: warn.
 //	evidence.exploration_band  "cap" holds a channel within ± this share of its

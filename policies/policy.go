@@ -98,6 +98,7 @@ type Action string
 
 const (
 	Refuse Action = "refuse" // the decision is refused
+	Hold   Action = "hold"   // the affected channels do not move (a global check: no channel moves)
 	Cap    Action = "cap"    // moves are held inside the exploration band
 	Warn   Action = "warn"   // the decision carries the warning, nothing else
 )
@@ -301,7 +302,7 @@ func errorsUnwrapPath(err error) error {
 // 1; max_loss_probability outside (0,1); downside_level outside (0,0.5);
 // cvar_level outside (0,0.5]; a share floor outside [-1,1]; high_multiple
 // below 1; low_multiple outside [0,1]; a negative min_move; an exploration
-// band outside [0,1]; an action other than refuse, cap, warn; an unknown
+// band outside [0,1]; an action other than refuse, hold, cap, warn; an unknown
 // family; a waiver or sign-off naming an undefined role; a sign-off rule
 // without a name, with a name used before, without roles, or whose when has
 // not exactly one condition; an unknown verdict; any number not finite.
@@ -415,9 +416,9 @@ func (p *Policy) check() *problem {
 	e := p.Evidence
 	action := func(a Action, path ...any) {
 		switch a {
-		case "", Refuse, Cap, Warn:
+		case "", Refuse, Hold, Cap, Warn:
 		default:
-			bad(fmt.Sprintf("unknown action %q (known: refuse, cap, warn)", a), path...)
+			bad(fmt.Sprintf("unknown action %q (known: refuse, hold, cap, warn)", a), path...)
 		}
 	}
 	action(e.OnFail, "evidence", "on_fail")

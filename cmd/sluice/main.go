@@ -35,7 +35,9 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if errors.As(err, &exit) && exit.ExitCode() == 0 {
 		return 0
 	}
-	printError(stderr, err)
+	if err.Error() != "" {
+		printError(stderr, err)
+	}
 	var code interface{ ExitCode() int }
 	if errors.As(err, &code) && code.ExitCode() != 0 {
 		return code.ExitCode()
@@ -93,6 +95,8 @@ func newApp(stdout, stderr io.Writer) *cli.App {
 			curvesCommand(),
 			validateCommand(),
 			allocateCommand(),
+			proposeCommand(),
+			verifyCommand(),
 			keygenCommand(),
 			signCommand(),
 		},

@@ -1,0 +1,386 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+	"text/tabwriter"
+	"time"
+
+	"github.com/urfave/cli/v2"
+
+	"sluice/gate"
+	"sluice/internal/atomicfile"
+	"sluice/internal/sample"
+	"sluice/internal/strictyaml"
+	"sluice/model"
+	"sluice/optimize"
+	"sluice/policies"
+	"sluice/record"
+	"sluice/uncertainty"
+	"sluice/validation"
+)
+
+// DefaultDecisionDraws is the bootstrap size propose runs when no draws
+// file is given: enough for stable 5% tails, small enough for a minute.
+const DefaultDecisionDraws = 300
+
+func decisionFlags() []cli.Flag {
+	return append(modelFlags(),
+		&cli.StringFlag{Name: "plan", Usage: "plan YAML: horizon, budget, per-channel bounds, groups, objective, margin"},
+		&cli.StringFlag{Name: "policy", Value: "standard", Usage: "policy: a preset name (" + strings.Join(policies.Names(), ", ") + ") or a YAML file"},
+		&cli.StringFlag{Name: "draws", Usage: "draws file from sluice bootstrap (command line only); without it a bootstrap runs here"},
+		&cli.IntFlag{Name: "bootstrap-draws", Value: DefaultDecisionDraws, Usage: "replicates of the bootstrap run here when no --draws is given"},
+		&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV: channel,start,end,incremental,std_error"},
+		&cli.StringFlag{Name: "records", Usage: "directory of earlier decision records to reconcile with the data"},
+		&cli.StringFlag{Name: "proposal", Usage: "gate this plan (YAML: channels: {name: weekly spend}) instead of the allocator's"},
+		&cli.StringFlag{Name: "waivers", Usage: "signatures file of an earlier record whose signed waivers apply to this decision"},
+		&cli.BoolFlag{Name: "quiet", Usage: "no progress bar"},
+	)
+}
+
+func proposeCommand() *cli.Command {
+	return &cli.Command{
+		Name:  "propose",
+		Usage: "allocate, gate every move by the policy and write the decision record (DIR/decision.json, DIR/report.html)",
+		Flags: append(decisionFlags(),
+			&cli.StringFlag{Name: "out", Usage: "directory for decision.json and report.html"},
+			&cli.BoolFlag{Name: "replace-signed", Usage: "move an earlier signed record in DIR aside (decision.<sha>.json) instead of refusing"},
+			&cli.BoolFlag{Name: "json", Usage: "print the decision record instead of the table"},
+		),
+		Action: func(c *cli.Context) error {
+			o, err := newOpts(c)
+			if err != nil {
+				return err
+			}
+			dir := o.String("out")
+			if dir == "" {
+				return withHint(errors.New("propose needs --out"), "pass --out DIR; decision.json and report.html are written there")
+			}
+			if err := guardSigned(dir, o.Bool("replace-signed")); err != nil {
+				return err
+			}
+			in, err := loadModelInput(o)
+			if err != nil {
+				return err
+			}
+			run, err := decide(c, o, in)
+			if err != nil {
+				return err
+			}
+			if err := os.MkdirAll(dir, 0o755); err != nil {
+				return err
+			}
+			path := filepath.Join(dir, "decision.json")
+			if err := atomicfile.Write(path, run.bytes, 0o644); err != nil {
+				return err
+			}
+			brief, err := writeBrief(dir, run, nil)
+			if err != nil {
+				return err
+			}
+			if o.Bool("json") {
+				_, err := c.App.Writer.Write(run.bytes)
+				return err
+			}
+			printDecision(c.App.Writer, run.rec)
+			fmt.Fprintf(c.App.Writer, "\nwrote %s", path)
+			if brief != "" {
+				fmt.Fprintf(c.App.Writer, " and %s", brief)
+			}
+			fmt.Fprintln(c.App.Writer)
+			return nil
+		},
+	}
+}
+
+// guardSigned refuses to overwrite a record that has sign-offs, unless
+// asked to move it aside.
+func guardSigned(dir string, replace bool) error {
+	rec := filepath.Join(dir, "decision.json")
+	sigs := record.SignaturesPath(rec)
+	if _, err := os.Stat(sigs); err != nil {
+		return nil
+	}
+	if !replace {
+		return withHint(fmt.Errorf("refusing to overwrite %s: it has sign-offs in %s", rec, sigs),
+			"write the new decision to another --out, or pass --replace-signed to move the signed record aside")
+	}
+	b, err := os.ReadFile(rec)
+	if err != nil {
+		return err
+	}
+	tag := record.SHA256Hex(b)[:12]
+	if err := os.Rename(rec, filepath.Join(dir, "decision."+tag+".json")); err != nil {
+		return err
+	}
+	return os.Rename(sigs, filepath.Join(dir, "decision."+tag+".signatures.json"))
+}
+
+// decisionRun is everything one decision computed.
+type decisionRun struct {
+	rec      *record.Decision
+	bytes    []byte
+	in       *modelInput
+	draws    []model.Params
+	point    model.Params
+	curves   *model.Curves
+	econ     optimize.Economics
+	gains    []float64 // of the approved plan, per draw
+	backtest *validation.BacktestResult
+	policy   *policies.Policy
+}
+
+// proposalFile is a plan a person wrote: weekly spend per channel.
+type proposalFile struct {
+	Channels map[string]float64 `yaml:"channels"`
+}
+
+// decide runs the whole decision: draws, evidence, allocation, gate,
+// forecast, record.
+func decide(c *cli.Context, o *opts, in *modelInput) (*decisionRun, error) {
+	planPath := o.String("plan")
+	if planPath == "" {
+		return nil, withHint(errors.New("propose needs --plan"), "pass --plan plan.yaml (see README, \"The plan file\")")
+	}
+	plan, err := optimize.LoadPlan(planPath)
+	if err != nil {
+		return nil, err
+	}
+	pol, err := policies.Resolve(o.String("policy"))
+	if err != nil {
+		return nil, err
+	}
+	inputs := map[string]record.Input{"data": {Path: in.DataPath, SHA256: in.DataSHA256}}
+	addInput := func(name, path string) error {
+		if path == "" {
+			return nil
+		}
+		h, err := sha256File(path)
+		if err != nil {
+			return err
+		}
+		inputs[name] = record.Input{Path: path, SHA256: h}
+		return nil
+	}
+	if err := addInput("spec", o.String("spec")); err != nil {
+		return nil, err
+	}
+	if err := addInput("plan", planPath); err != nil {
+		return nil, err
+	}
+	policyPath := pol.Source
+	if _, err := os.Stat(o.String("policy")); err != nil {
+		policyPath = "preset:" + pol.Name
+	}
+	inputs["policy"] = record.Input{Path: policyPath, SHA256: record.SHA256Hex(pol.Raw)}
+
+	d, drawsPath, err := drawsFor(c, o, in, c.String("draws"), o.Int("bootstrap-draws"), o.Bool("quiet"))
+	if err != nil {
+		return nil, err
+	}
+	if drawsPath != "" {
+		if err := addInput("draws", drawsPath); err != nil {
+			return nil, err
+		}
+	}
+	draws, point := d.Params(), fullFitParams(d)
+
+	// Evidence.
+	prob := validation.Problem{Panel: in.Panel, Design: in.Design,
+		Draws: &validation.Draws{Params: draws, Failed: d.Failed()}}
+	if path := o.String("lifts"); path != "" {
+		if prob.Lifts, err = validation.LoadLifts(path, in.Panel); err != nil {
+			return nil, err
+		}
+		if err := addInput("lifts", path); err != nil {
+			return nil, err
+		}
+	}
+	if dir := o.String("records"); dir != "" {
+		if prob.Forecasts, err = validation.LoadForecasts(dir); err != nil {
+			return nil, err
+		}
+	}
+	val, err := validation.Run(prob, validation.DefaultThresholds(),
+		validation.Settings{Seed: in.Seed, Workers: in.Workers, ValuePerKPI: plan.ValuePerKPI})
+	if err != nil {
+		return nil, err
+	}
+
+	// Proposal: the allocator's, or a person's.
+	h := plan.HorizonWeeks
+	current := in.Design.CurrentSpend()
+	curves := in.Design.NewCurves(draws, h)
+	econ := optimize.Economics{Horizon: h, Margin: plan.Margin, ValuePerKPI: plan.ValuePerKPI}
+	var proposed []float64
+	var proposal record.Proposal
+	if path := o.String("proposal"); path != "" {
+		var pf proposalFile
+		if err := strictyaml.ReadFile(path, &pf); err != nil {
+			return nil, err
+		}
+		proposed = slices.Clone(current)
+		for name, w := range pf.Channels {
+			k := slices.Index(in.Spec.ChannelNames(), name)
+			if k < 0 {
+				return nil, fmt.Errorf("%s: channels.%s: not a channel of the model (%s)", path, name, strings.Join(in.Spec.ChannelNames(), ", "))
+			}
+			if !(w >= 0) || math.IsInf(w, 0) {
+				return nil, fmt.Errorf("%s: channels.%s: weekly spend %v must be a non-negative number", path, name, w)
+			}
+			proposed[k] = w
+		}
+		if err := addInput("proposal", path); err != nil {
+			return nil, err
+		}
+		var g float64
+		for _, v := range econ.Gains(nil, curves, proposed, current) {
+			g += v
+		}
+		proposal = record.Proposal{Source: path, Objective: "written by a person", ExpectedGain: g / float64(len(draws))}
+	} else {
+		res, err := allocate(in, plan, draws, point)
+		if err != nil {
+			return nil, err
+		}
+		proposed = res.Proposed
+		proposal = record.Proposal{Source: "allocator", Objective: res.Objective.String(), ExpectedGain: res.ExpectedGain,
+			Optimality: res.KKT.Detail}
+	}
+
+	// The gate.
+	waivers, err := signedWaivers(o.String("waivers"), pol)
+	if err != nil {
+		return nil, err
+	}
+	if err := addInput("waivers", o.String("waivers")); err != nil {
+		return nil, err
+	}
+	low, high := in.Design.Support()
+	support := make([]gate.SupportRange, len(low))
+	for k := range low {
+		support[k] = gate.SupportRange{Low: low[k], High: high[k]}
+	}
+	review := gate.Review{Channels: in.Spec.ChannelNames(), Current: current, Proposed: proposed,
+		Response: curves, Economics: econ, Support: support, Evidence: val.Evidence, Waivers: waivers, Policy: pol}
+	gd, err := gate.Run(review, gate.Settings{Workers: in.Workers})
+	if err != nil {
+		return nil, err
+	}
+	gains := econ.Gains(nil, curves, gd.ApprovedPlan, current)
+
+	// The record.
+	rec := &record.Decision{Format: record.DecisionFormat, Tool: "sluice", Version: version, Seed: in.Seed,
+		KPI: in.Panel.KPIName, AsOf: in.Panel.Weeks[in.Panel.NumWeeks()-1].Format(time.DateOnly),
+		Channels: in.Spec.ChannelNames(), Horizon: h, Inputs: inputs, PolicySHA256: record.SHA256Hex(pol.Raw),
+		Draws: record.DrawsInfo{Count: len(d.Replicates), Failed: d.Failed(), Method: string(d.Header.Method), BlockLength: d.Header.BlockLength},
+		Proposal: proposal, Decision: *gd, Caution: record.Caution}
+	sum := val.Evidence.Summary()
+	rec.Evidence = map[string]int{"pass": sum[validation.Pass], "warn": sum[validation.Warn], "fail": sum[validation.Fail]}
+	sigma := model.FitStats(in.Panel.KPI, val.Fit.Residuals, in.Spec.NumParams()).Sigma
+	fc, total := forecastBand(in, val.Fit.Params, draws, gd.ApprovedPlan, h, sigma)
+	rec.Forecast, rec.ForecastTotal = *fc, total
+	b, err := record.MarshalDecision(rec)
+	if err != nil {
+		return nil, err
+	}
+	return &decisionRun{rec: rec, bytes: b, in: in, draws: draws, point: point, curves: curves, econ: econ,
+		gains: gains, backtest: val.Backtest, policy: pol}, nil
+}
+
+// forecastBand forecasts the KPI of each week of the horizon under the
+// approved plan: each draw's forecast plus noise with the fit's residual
+// SD (one seeded stream per draw), summarized by type-8 quantiles.
+func forecastBand(in *modelInput, point model.Params, draws []model.Params, plan []float64, h int, sigma float64) (*validation.Forecast, [3]float64) {
+	weeks := make([][]float64, h)
+	totals := make([]float64, len(draws))
+	for i, p := range draws {
+		f := in.Design.Forecast(p, plan, nil, h)
+		rng := uncertainty.Stream(in.Seed^0xf0cac57, i)
+		for t, v := range f {
+			v += sigma * rng.NormFloat64()
+			weeks[t] = append(weeks[t], v)
+			totals[i] += v
+		}
+	}
+	var band validation.Band
+	for _, w := range weeks {
+		q := sample.Quantiles(w, 0.05, 0.5, 0.95)
+		band.P05, band.P50, band.P95 = append(band.P05, q[0]), append(band.P50, q[1]), append(band.P95, q[2])
+	}
+	t := sample.Quantiles(totals, 0.05, 0.5, 0.95)
+	planMap := map[string]float64{}
+	for k, name := range in.Spec.ChannelNames() {
+		planMap[name] = plan[k]
+	}
+	made := map[string]string{"data_sha256": in.DataSHA256}
+	if in.SpecSHA256 != "" {
+		made["spec_sha256"] = in.SpecSHA256
+	}
+	fc := validation.NewForecast(in.Design, in.Panel.Weeks[0], point, planMap, band, made)
+	return fc, [3]float64{t[0], t[1], t[2]}
+}
+
+// signedWaivers reads the waivers of an earlier record's sign-offs: only
+// those whose signature is valid for a key the policy lists for the role.
+func signedWaivers(path string, pol *policies.Policy) ([]gate.Waiver, error) {
+	if path == "" {
+		return nil, nil
+	}
+	sigs, err := record.ReadSignoffs(path)
+	if err != nil {
+		return nil, err
+	}
+	recPath := strings.TrimSuffix(path, ".signatures.json") + ".json"
+	body, err := os.ReadFile(recPath)
+	if err != nil {
+		return nil, fmt.Errorf("%s: the signed record beside it: %w", path, err)
+	}
+	ring, err := record.PolicyKeyring(pol)
+	if err != nil {
+		return nil, err
+	}
+	_, ws := record.SignedRoles(body, sigs, ring)
+	var out []gate.Waiver
+	for _, w := range ws {
+		out = append(out, gate.Waiver{Check: w.Waiver.Check, Role: w.Role})
+	}
+	if len(out) == 0 {
+		return nil, withHint(fmt.Errorf("%s: no valid signed waiver for this policy", path), "sign with --waive CHECK --reason \"...\" using a key the policy lists")
+	}
+	return out, nil
+}
+
+// printDecision prints the decision table: per channel current → proposed
+// → approved, the safe step and the reason; then the verdict and who signs.
+func printDecision(w io.Writer, r *record.Decision) {
+	fmt.Fprintf(w, "decision on next %d weeks (policy %s, %d draws, seed %d); weekly spend\n\n", r.Horizon, r.Policy, r.Draws.Count-r.Draws.Failed, r.Seed)
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "channel\tcurrent\tproposed\tapproved\tsafe step\treason")
+	for _, m := range r.Moves {
+		reason := "within the limits"
+		if len(m.Reasons) > 0 {
+			reason = m.Reasons[0]
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%.0f%%\t%s\n", m.Channel, money(m.Current), money(m.Proposed), money(m.Approved), 100*m.SafeStep, reason)
+	}
+	tw.Flush()
+	a := r.Risk.Approved
+	fmt.Fprintf(w, "\nverdict: %s", strings.ToUpper(string(r.Verdict)))
+	if len(r.Reasons) > 0 {
+		fmt.Fprintf(w, " — %s", r.Reasons[0])
+	}
+	fmt.Fprintf(w, "\napproved plan: expected gain %s over the horizon (5%%–95%%: %s to %s), probability of loss %.0f%%\n",
+		signedMoney(a.ExpectedGain), signedMoney(a.P05), signedMoney(a.P95), 100*a.PLoss)
+	fmt.Fprintln(w, "sign-offs required:")
+	for _, s := range r.SignoffsRequired {
+		fmt.Fprintf(w, "  %-18s %s (%s)\n", s.Role, s.Explanation, s.Rule)
+	}
+	fmt.Fprintln(w, "\n"+record.Caution)
+}
