@@ -280,8 +280,9 @@ func gainChart(gains []float64, horizon int, downside, downsideLevel, expected f
 	losses, wins := bins{edges: edges, counts: counts, loss: true}, bins{edges: edges, counts: counts}
 	zero := vline{0, draw.LineStyle{Color: black, Width: vg.Points(1.4)}}
 	down := vline{downside, draw.LineStyle{Color: black, Width: vg.Points(1.2), Dashes: []vg.Length{vg.Points(4), vg.Points(2)}}}
-	mean := vline{expected, draw.LineStyle{Color: blue, Width: vg.Points(1.6), Dashes: []vg.Length{vg.Points(1), vg.Points(2)}}}
+	mean := vline{expected, draw.LineStyle{Color: black, Width: vg.Points(1.6), Dashes: []vg.Length{vg.Points(1), vg.Points(2)}}}
 	p.Add(gridLines{y: true}, losses, zero, down, mean)
+	p.Y.Max *= 1.08 // headroom above the tallest bar
 
 	leg := newLegend()
 	leg.Add("draws losing money", losses)

@@ -20,7 +20,7 @@ func ExampleRender() {
 				{Channel: "search", Current: 20000, Proposed: 25000, Approved: 25000, SafeStep: 1},
 				{Channel: "radio", Current: 10000, Proposed: 5000, Approved: 5000, SafeStep: 1},
 			},
-			Risk: gate.Risks{Approved: gate.Risk{MovedPerWeek: 5000, MovedHorizon: 65000, ExpectedGain: 12000, DownsideLevel: 0.05, CVaRLevel: 0.05}},
+			Risk:             gate.Risks{Approved: gate.Risk{MovedPerWeek: 5000, MovedHorizon: 65000, ExpectedGain: 12000, DownsideLevel: 0.05, CVaRLevel: 0.05}},
 			SignoffsRequired: []gate.Signoff{{Role: "finance", Explanation: "every move is signed by finance"}},
 		},
 		Caution: record.Caution,

@@ -21,7 +21,9 @@ func fuzzInput(channel, detail, reason, title string) report.Input {
 	d.Checks = d.Checks[:3]
 	d.Checks[1].Detail = detail
 	d.Checks[2].Scope = channel
-	d.Reasons = []string{reason}
+	// The first reason is the one the verdict sentence quotes (and the Why
+	// list then leaves out); the second stays in the list.
+	d.Reasons = []string{"the proposal as a whole " + reason, reason + " (a warning)"}
 	d.SignoffsRequired[0].Explanation = reason
 	m := testMoves[3]
 	return report.Input{Record: d, Signed: []string{channel}, Title: title,

@@ -135,7 +135,8 @@ func (s seenRange) DataRange() (xmin, xmax, ymin, ymax float64) {
 	return s.low, s.high, math.Inf(1), math.Inf(-1)
 }
 
-// vline is a vertical line across the plot at x.
+// vline is a vertical line across the plot at x, on a white halo so that
+// it reads on top of bars of any colour.
 type vline struct {
 	x   float64
 	sty draw.LineStyle
@@ -147,6 +148,7 @@ func (l vline) Plot(c draw.Canvas, p *plot.Plot) {
 	if x < c.Min.X || x > c.Max.X {
 		return
 	}
+	c.StrokeLine2(draw.LineStyle{Color: white, Width: l.sty.Width + vg.Points(2)}, x, c.Min.Y, x, c.Max.Y)
 	c.StrokeLine2(l.sty, x, c.Min.Y, x, c.Max.Y)
 }
 

@@ -334,3 +334,50 @@ func TestWrite(t *testing.T) {
 }
 
 func nan() float64 { return math.NaN() }
+
+// TestRefusedBrief: a refusal moves nothing, so there is no gain
+// distribution to draw and no safe step to offer.
+func TestRefusedBrief(t *testing.T) {
+	in := testInput()
+	d := in.Record
+	d.Verdict = gate.Refuse
+	d.Reasons = []string{"no step of the proposal meets the policy", "check holdout_mape (accuracy) warned: holdout error above target"}
+	for k := range d.Moves {
+		d.Moves[k].Approved = d.Moves[k].Current
+		d.Moves[k].Reasons = []string{"refused: no step of the proposal meets the policy"}
+		in.Curves[k].Approved = in.Curves[k].Current
+	}
+	d.Risk.Approved = gate.Risk{DownsideLevel: 0.05, CVaRLevel: 0.05}
+	for i := range in.Gains {
+		in.Gains[i] = 0
+	}
+	doc := parseHTML(t, render(t, in))
+	if got, want := len(byName(doc, "svg")), len(in.Curves)+2; got != want {
+		t.Errorf("%d charts, want %d (no gain distribution)", got, want)
+	}
+	body := bodyText(doc)
+	for _, s := range []string{
+		"Refused: none of the 61,000 a week proposed is moved, because no step of the proposal meets the policy.",
+		"The approved plan moves no money, so its gain is zero under every draw",
+		"(no money moves; every channel keeps its current spend)",
+	} {
+		if !strings.Contains(body, s) {
+			t.Errorf("brief does not say %q", s)
+		}
+	}
+	if strings.Contains(body, "On its own") {
+		t.Error("a refused brief offers a safe step")
+	}
+	// The sentence's reason is not repeated in the Why list; the warning is.
+	var why []string
+	for _, ul := range byTag(doc, atom.Ul) {
+		if p := ul.Parent; p != nil && p.DataAtom == atom.Div {
+			for _, li := range byTag(ul, atom.Li) {
+				why = append(why, text(li))
+			}
+		}
+	}
+	if want := d.Reasons[1:]; !slices.Equal(why, want) {
+		t.Errorf("Why list %q, want %q", why, want)
+	}
+}

@@ -163,11 +163,11 @@ func newView(in Input) (*view, error) {
 }
 
 // verdict writes the decision in one sentence, and the reasons about the
-// decision as a whole.
+// decision as a whole that the sentence does not already give.
 func (v *view) verdict(d *record.Decision, weeks string) {
 	prop, appr := d.Risk.Proposed, d.Risk.Approved
 	v.VerdictID = string(d.Verdict)
-	v.Reasons = d.Reasons
+	why := ""
 	switch d.Verdict {
 	case gate.Approve:
 		v.Verdict = "APPROVED"
@@ -175,11 +175,12 @@ func (v *view) verdict(d *record.Decision, weeks string) {
 			money(appr.MovedPerWeek), money(appr.MovedHorizon), weeks)
 	case gate.Downsize:
 		v.Verdict = "APPROVED IN PART"
+		why = heldBackReason(d)
 		v.Sentence = fmt.Sprintf("Approved in part: move %s a week of the %s proposed; the rest is held back because %s.",
-			money(appr.MovedPerWeek), money(prop.MovedPerWeek), sentenceEnd(heldBackReason(d)))
+			money(appr.MovedPerWeek), money(prop.MovedPerWeek), sentenceEnd(why))
 	default:
 		v.Verdict = "REFUSED"
-		why := "the policy does not approve it"
+		why = "the policy does not approve it"
 		if len(d.Reasons) > 0 {
 			why = d.Reasons[0]
 		}
@@ -188,6 +189,11 @@ func (v *view) verdict(d *record.Decision, weeks string) {
 		} else {
 			v.Sentence = fmt.Sprintf("Refused: none of the %s a week proposed is moved, because %s.",
 				money(prop.MovedPerWeek), sentenceEnd(why))
+		}
+	}
+	for _, r := range d.Reasons {
+		if r != why {
+			v.Reasons = append(v.Reasons, r)
 		}
 	}
 }
@@ -232,11 +238,11 @@ func (v *view) figures(d *record.Decision, weeks string) {
 		row("Money moved over the "+weeks, func(r gate.Risk) string { return money(r.MovedHorizon) }),
 		row("Expected gain", func(r gate.Risk) string { return signedMoney(r.ExpectedGain) }),
 		row("Median gain", func(r gate.Risk) string { return signedMoney(r.P50) }),
-		row("Gain at the 5th percentile", func(r gate.Risk) string { return money(r.P05) }),
-		row("Gain at the 95th percentile", func(r gate.Risk) string { return money(r.P95) }),
+		row("Gain at the 5th percentile", func(r gate.Risk) string { return signedMoney(r.P05) }),
+		row("Gain at the 95th percentile", func(r gate.Risk) string { return signedMoney(r.P95) }),
 		row("Chance of a loss", func(r gate.Risk) string { return pct(r.PLoss) }),
-		row("Downside ("+percentileName(a.DownsideLevel)+")", func(r gate.Risk) string { return money(r.Downside) }),
-		row("Average of the worst "+pct(a.CVaRLevel)+" (CVaR)", func(r gate.Risk) string { return money(r.CVaR) }),
+		row("Downside: gain at the "+percentileName(a.DownsideLevel), func(r gate.Risk) string { return signedMoney(r.Downside) }),
+		row("Average gain of the worst "+pct(a.CVaRLevel)+" (CVaR)", func(r gate.Risk) string { return signedMoney(r.CVaR) }),
 	}
 	if f := d.Forecast; f.Weeks > 0 {
 		from := ""
@@ -301,7 +307,7 @@ func (v *view) moves(d *record.Decision) error {
 		cs, ps, as = append(cs, m.Current), append(ps, m.Proposed), append(as, m.Approved)
 		if len(m.Reasons) > 0 {
 			c := cappedMove{Channel: m.Channel, Reasons: m.Reasons}
-			if m.SafeStep < 1 && m.Proposed != m.Current {
+			if d.Verdict == gate.Downsize && m.SafeStep < 1 && m.Proposed != m.Current {
 				c.Step = fmt.Sprintf("On its own, %s of this move (%s a week) meets the policy.", pct(m.SafeStep), money(math.Abs(m.SafeStepPerWeek)))
 			}
 			v.Capped = append(v.Capped, c)
@@ -329,6 +335,10 @@ func (v *view) gains(d *record.Decision, gains []float64, weeks string) error {
 	a := d.Risk.Approved
 	if len(gains) == 0 {
 		v.GainCaption = "No draws of the gain were given to this brief, so its distribution is not drawn; the figures above come from the decision record."
+		return nil
+	}
+	if a.MovedPerWeek == 0 && slices.Min(gains) == 0 && slices.Max(gains) == 0 {
+		v.GainCaption = "The approved plan moves no money, so its gain is zero under every draw; there is no distribution to draw."
 		return nil
 	}
 	doc, err := gainChart(gains, d.Horizon, a.Downside, a.DownsideLevel, a.ExpectedGain)
