@@ -154,6 +154,18 @@ func TestBriefStructure(t *testing.T) {
 		}
 	})
 
+	t.Run("ids", func(t *testing.T) {
+		seen := map[string]bool{}
+		for _, e := range elements(doc, func(*html.Node) bool { return true }) {
+			if id, ok := attr(e, "id"); ok {
+				if seen[id] {
+					t.Errorf("id %q used twice", id)
+				}
+				seen[id] = true
+			}
+		}
+	})
+
 	t.Run("self-contained", func(t *testing.T) {
 		for _, s := range []string{"http://", "https://", "@import", "url(", "@font-face", "<?xml", "xmlns"} {
 			if bytes.Contains(bytes.ToLower(raw), []byte(s)) {

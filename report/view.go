@@ -141,7 +141,7 @@ func newView(in Input) (*view, error) {
 			return nil, err
 		}
 		caption := curveCaption(cb, weeks)
-		svg, err := inlineSVG(doc, "curve-"+strconv.Itoa(i+1), "Response curve of "+cb.Channel+". "+caption)
+		svg, err := inlineSVG(doc, "chart-curve-"+strconv.Itoa(i+1), "Response curve of "+cb.Channel+". "+caption)
 		if err != nil {
 			return nil, err
 		}
@@ -153,7 +153,7 @@ func newView(in Input) (*view, error) {
 			return nil, err
 		}
 		v.HoldoutCaption = holdoutCaption(in.Holdout, kpi)
-		if v.HoldoutChart, err = inlineSVG(doc, "holdout", "Holdout weeks: actual "+kpi+" against the forecast. "+v.HoldoutCaption); err != nil {
+		if v.HoldoutChart, err = inlineSVG(doc, "chart-holdout", "Holdout weeks: actual "+kpi+" against the forecast. "+v.HoldoutCaption); err != nil {
 			return nil, err
 		}
 	}
@@ -327,7 +327,7 @@ func (v *view) moves(d *record.Decision) error {
 		parts = append(parts, fmt.Sprintf("%s: current %s, proposed %s, approved %s", m.Channel, money(m.Current), money(m.Proposed), money(m.Approved)))
 	}
 	v.MovesLabel = "Weekly spend by channel. " + strings.Join(parts, "; ") + "."
-	v.MovesChart, err = inlineSVG(doc, "moves", v.MovesLabel)
+	v.MovesChart, err = inlineSVG(doc, "chart-moves", v.MovesLabel)
 	return err
 }
 
@@ -353,7 +353,7 @@ func (v *view) gains(d *record.Decision, gains []float64, weeks string) error {
 	}
 	v.GainCaption = fmt.Sprintf("Each bar counts the draws of the model whose gain over the %s, under the approved plan, falls in its range; %d of %d draws lose money (hatched, left of the solid break-even line). The dashed line is the %s (%s), the dotted line the expected gain (%s).",
 		weeks, losing, len(gains), percentileName(a.DownsideLevel), money(a.Downside), signedMoney(a.ExpectedGain))
-	v.GainChart, err = inlineSVG(doc, "gain", "Distribution of the gain of the approved plan. "+v.GainCaption)
+	v.GainChart, err = inlineSVG(doc, "chart-gain", "Distribution of the gain of the approved plan. "+v.GainCaption)
 	return err
 }
 
