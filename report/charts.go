@@ -1,0 +1,351 @@
+package report
+
+import (
+	"bytes"
+	"fmt"
+	"math"
+	"slices"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgsvg"
+)
+
+// sans is the face gonum measures text with. Liberation Sans has the
+// metrics of Arial and Helvetica, so the generic family the SVG names
+// instead (see inlineSVG) lays out the same; no font is embedded.
+var sans = font.Font{Typeface: "Liberation", Variant: "Sans"}
+
+const (
+	tickSize   = 8
+	labelSize  = 9
+	legendSize = 8
+)
+
+// newPlot returns a plot whose text is set in sans, with compact money
+// ticks on both axes.
+func newPlot() *plot.Plot {
+	p := plot.New()
+	p.Title.TextStyle.Font = font.From(sans, 11)
+	for _, a := range []*plot.Axis{&p.X, &p.Y} {
+		a.Label.TextStyle.Font = font.From(sans, labelSize)
+		a.Tick.Label.Font = font.From(sans, tickSize)
+		a.Tick.Marker = moneyTicks{}
+		a.Padding = vg.Points(2)
+	}
+	return p
+}
+
+func newLegend() plot.Legend {
+	l := plot.NewLegend()
+	l.TextStyle.Font = font.From(sans, legendSize)
+	l.Top, l.Left = true, true
+	l.ThumbnailWidth = vg.Points(18)
+	l.Padding = vg.Points(3)
+	return l
+}
+
+// svgWithLegend draws p and, to its right, the legend, on a w×h canvas,
+// and returns the SVG document.
+func svgWithLegend(p *plot.Plot, leg plot.Legend, w, h vg.Length) ([]byte, error) {
+	c := vgsvg.New(w, h)
+	dc := draw.New(c)
+	lw := leg.Rectangle(dc).Size().X + vg.Points(8)
+	p.Draw(draw.Crop(dc, 0, -lw, 0, 0))
+	leg.Draw(draw.Crop(dc, w-lw+vg.Points(6), 0, 0, -vg.Points(6)))
+	var buf bytes.Buffer
+	if _, err := c.WriteTo(&buf); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
+}
+
+// at interpolates ys over the increasing grid xs at x, linearly; outside
+// the grid it returns the nearest end and beyond = true.
+func at(xs, ys []float64, x float64) (y float64, beyond bool) {
+	n := len(xs)
+	if n == 0 {
+		return math.NaN(), true
+	}
+	if x <= xs[0] {
+		return ys[0], x < xs[0]
+	}
+	if x >= xs[n-1] {
+		return ys[n-1], x > xs[n-1]
+	}
+	i, _ := slices.BinarySearch(xs, x)
+	x0, x1 := xs[i-1], xs[i]
+	f := (x - x0) / (x1 - x0)
+	return ys[i-1] + f*(ys[i]-ys[i-1]), false
+}
+
+// finiteAll reports whether every value is a finite number.
+func finiteAll(xs ...[]float64) bool {
+	for _, s := range xs {
+		for _, v := range s {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+// curveChart draws one channel's horizon response: the median line, the
+// 80% band of the draws, the spend range the data has seen, and markers at
+// the current, proposed and approved spend.
+func curveChart(cb CurveBand, horizon int, kpi string) ([]byte, error) {
+	if len(cb.Spend) < 2 {
+		return nil, fmt.Errorf("report: curve %q: needs at least two grid points, has %d", cb.Channel, len(cb.Spend))
+	}
+	if !finiteAll(cb.Spend, cb.P10, cb.P50, cb.P90, []float64{cb.SeenLow, cb.SeenHigh, cb.Current, cb.Proposed, cb.Approved}) {
+		return nil, fmt.Errorf("report: curve %q: spend and response must be finite numbers", cb.Channel)
+	}
+	if !slices.IsSorted(cb.Spend) {
+		return nil, fmt.Errorf("report: curve %q: the spend grid must increase", cb.Channel)
+	}
+	p := newPlot()
+	p.X.Label.Text = "weekly spend"
+	p.Y.Label.Text = fmt.Sprintf("extra %s over %s", kpi, plural(horizon, "week", "weeks"))
+	p.X.Min, p.Y.Min = 0, 0
+
+	n := len(cb.Spend)
+	band := make(plotter.XYs, 0, 2*n)
+	for i := range n {
+		band = append(band, plotter.XY{X: cb.Spend[i], Y: cb.P90[i]})
+	}
+	for i := n - 1; i >= 0; i-- {
+		band = append(band, plotter.XY{X: cb.Spend[i], Y: cb.P10[i]})
+	}
+	poly, err := plotter.NewPolygon(band)
+	if err != nil {
+		return nil, fmt.Errorf("report: curve %q: %w", cb.Channel, err)
+	}
+	poly.Color = bandFill
+	poly.LineStyle.Width = 0
+
+	mid := make(plotter.XYs, n)
+	for i := range n {
+		mid[i] = plotter.XY{X: cb.Spend[i], Y: cb.P50[i]}
+	}
+	line, err := plotter.NewLine(mid)
+	if err != nil {
+		return nil, fmt.Errorf("report: curve %q: %w", cb.Channel, err)
+	}
+	line.LineStyle = draw.LineStyle{Color: blue, Width: vg.Points(1.6)}
+
+	point := func(x float64, g draw.GlyphStyle) *plotter.Scatter {
+		y, _ := at(cb.Spend, cb.P50, x)
+		s, _ := plotter.NewScatter(plotter.XYs{{X: x, Y: y}}) // finite, checked above
+		s.GlyphStyle = g
+		return s
+	}
+	cur, prop, appr := point(cb.Current, currentGlyph), point(cb.Proposed, proposedGlyph), point(cb.Approved, approvedGlyph)
+
+	seen := seenRange{cb.SeenLow, cb.SeenHigh}
+	p.Add(seen, gridLines{x: true, y: true}, poly, line, cur, prop, appr)
+
+	leg := newLegend()
+	leg.Add("median of draws", line)
+	leg.Add("80% of draws", poly)
+	leg.Add("spend seen in data", seen)
+	leg.Add("current", cur)
+	leg.Add("proposed", prop)
+	leg.Add("approved", appr)
+	return svgWithLegend(p, leg, 6.4*vg.Inch, 2.9*vg.Inch)
+}
+
+// movesChart draws each channel's move on one row: a dashed black line
+// from current to proposed, a solid vermillion line from current to
+// approved, and the three markers.
+func movesChart(names []string, current, proposed, approved []float64) ([]byte, error) {
+	if !finiteAll(current, proposed, approved) {
+		return nil, fmt.Errorf("report: moves: spend must be finite numbers")
+	}
+	p := newPlot()
+	p.X.Label.Text = "weekly spend"
+	p.X.Min = 0
+	n := len(names)
+	rev := slices.Clone(names)
+	slices.Reverse(rev)
+	p.NominalY(rev...) // first channel at the top
+	p.Y.Tick.Label.Font = font.From(sans, labelSize)
+	p.Y.Padding = vg.Points(10)
+	p.Add(gridLines{x: true})
+
+	propSty := draw.LineStyle{Color: black, Width: vg.Points(1.2), Dashes: []vg.Length{vg.Points(4), vg.Points(2.5)}}
+	apprSty := draw.LineStyle{Color: vermillion, Width: vg.Points(3)}
+	var legendProp, legendAppr *plotter.Line
+	var cur, prop, appr plotter.XYs
+	for k := range n {
+		y := float64(n - 1 - k)
+		lp, err := plotter.NewLine(plotter.XYs{{X: current[k], Y: y}, {X: proposed[k], Y: y}})
+		if err != nil {
+			return nil, fmt.Errorf("report: moves: %w", err)
+		}
+		lp.LineStyle = propSty
+		la, err := plotter.NewLine(plotter.XYs{{X: current[k], Y: y}, {X: approved[k], Y: y}})
+		if err != nil {
+			return nil, fmt.Errorf("report: moves: %w", err)
+		}
+		la.LineStyle = apprSty
+		p.Add(lp, la)
+		legendProp, legendAppr = lp, la
+		cur = append(cur, plotter.XY{X: current[k], Y: y})
+		prop = append(prop, plotter.XY{X: proposed[k], Y: y})
+		appr = append(appr, plotter.XY{X: approved[k], Y: y})
+	}
+	scatter := func(xy plotter.XYs, g draw.GlyphStyle) (*plotter.Scatter, error) {
+		s, err := plotter.NewScatter(xy)
+		if err != nil {
+			return nil, fmt.Errorf("report: moves: %w", err)
+		}
+		s.GlyphStyle = g
+		return s, nil
+	}
+	sc, err := scatter(cur, currentGlyph)
+	if err != nil {
+		return nil, err
+	}
+	sp, err := scatter(prop, proposedGlyph)
+	if err != nil {
+		return nil, err
+	}
+	sa, err := scatter(appr, approvedGlyph)
+	if err != nil {
+		return nil, err
+	}
+	p.Add(sc, sp, sa)
+
+	leg := newLegend()
+	leg.Add("current", sc)
+	leg.Add("proposed", legendProp, sp)
+	leg.Add("approved", legendAppr, sa)
+	h := vg.Length(n)*0.42*vg.Inch + 0.8*vg.Inch
+	return svgWithLegend(p, leg, 7*vg.Inch, h)
+}
+
+// gainBins bins gains with a round bin width so that zero is a bin edge:
+// no bar mixes losses and gains. The number of bins follows the Rice rule,
+// k = 2·n^(1/3) (Lane, Online Statistics Education, "Histograms"), between
+// 10 and 40.
+func gainBins(gains []float64) (edges, counts []float64) {
+	lo, hi := slices.Min(gains), slices.Max(gains)
+	if hi-lo < 1e-9*max(1, math.Abs(lo), math.Abs(hi)) {
+		w := max(1, math.Abs(lo)/10)
+		return []float64{lo - w, lo + w}, []float64{float64(len(gains))}
+	}
+	k := min(40, max(10, int(math.Ceil(2*math.Cbrt(float64(len(gains)))))))
+	w := niceStep((hi - lo) / float64(k))
+	start := math.Floor(lo/w) * w
+	nb := int(math.Floor((hi-start)/w)) + 1
+	edges = make([]float64, nb+1)
+	for i := range edges {
+		edges[i] = start + float64(i)*w
+	}
+	counts = make([]float64, nb)
+	for _, g := range gains {
+		i := min(nb-1, max(0, int(math.Floor((g-start)/w))))
+		counts[i]++
+	}
+	return edges, counts
+}
+
+// niceStep rounds x up to 1, 2, 2.5 or 5 times a power of ten.
+func niceStep(x float64) float64 {
+	e := math.Pow(10, math.Floor(math.Log10(x)))
+	for _, m := range []float64{1, 2, 2.5, 5, 10} {
+		if m*e >= x {
+			return m * e
+		}
+	}
+	return 10 * e
+}
+
+// gainChart draws the histogram of the approved plan's gain over the
+// draws, with break-even, the downside quantile and the expected gain
+// marked.
+func gainChart(gains []float64, horizon int, downside, downsideLevel, expected float64) ([]byte, error) {
+	if !finiteAll(gains, []float64{downside, expected}) {
+		return nil, fmt.Errorf("report: gains must be finite numbers")
+	}
+	p := newPlot()
+	p.X.Label.Text = fmt.Sprintf("gain of the approved plan over %s", plural(horizon, "week", "weeks"))
+	p.Y.Label.Text = "number of draws"
+	p.Y.Tick.Marker = plot.DefaultTicks{}
+	edges, counts := gainBins(gains)
+	losses, wins := bins{edges: edges, counts: counts, loss: true}, bins{edges: edges, counts: counts}
+	zero := vline{0, draw.LineStyle{Color: black, Width: vg.Points(1.4)}}
+	down := vline{downside, draw.LineStyle{Color: black, Width: vg.Points(1.2), Dashes: []vg.Length{vg.Points(4), vg.Points(2)}}}
+	mean := vline{expected, draw.LineStyle{Color: black, Width: vg.Points(1.6), Dashes: []vg.Length{vg.Points(1), vg.Points(2)}}}
+	p.Add(gridLines{y: true}, losses, zero, down, mean)
+	p.Y.Max *= 1.08 // headroom above the tallest bar
+
+	leg := newLegend()
+	leg.Add("draws losing money", losses)
+	leg.Add("draws gaining", wins)
+	leg.Add("break-even (0)", zero)
+	leg.Add(fmt.Sprintf("%s: %s", percentileName(downsideLevel), money(downside)), down)
+	leg.Add("expected gain: "+money(expected), mean)
+	return svgWithLegend(p, leg, 7*vg.Inch, 2.9*vg.Inch)
+}
+
+// holdoutChart draws the holdout weeks: the actual KPI against the
+// forecast and its band.
+func holdoutChart(h *Holdout, kpi string) ([]byte, error) {
+	if len(h.Weeks) < 2 {
+		return nil, fmt.Errorf("report: holdout: needs at least two weeks, has %d", len(h.Weeks))
+	}
+	if !finiteAll(h.Actual, h.Forecast, h.Low, h.High) {
+		return nil, fmt.Errorf("report: holdout: values must be finite numbers")
+	}
+	p := newPlot()
+	p.X.Label.Text = "holdout week"
+	p.Y.Label.Text = "weekly " + kpi
+	p.X.Tick.Marker = weekTicks(h.Weeks)
+	p.Add(gridLines{y: true})
+	n := len(h.Weeks)
+	series := func(ys []float64) plotter.XYs {
+		xy := make(plotter.XYs, n)
+		for i := range n {
+			xy[i] = plotter.XY{X: float64(i), Y: ys[i]}
+		}
+		return xy
+	}
+	var poly *plotter.Polygon
+	if h.Low != nil {
+		band := series(h.High)
+		for i := n - 1; i >= 0; i-- {
+			band = append(band, plotter.XY{X: float64(i), Y: h.Low[i]})
+		}
+		var err error
+		if poly, err = plotter.NewPolygon(band); err != nil {
+			return nil, fmt.Errorf("report: holdout: %w", err)
+		}
+		poly.Color = bandFill
+		poly.LineStyle.Width = 0
+		p.Add(poly)
+	}
+	fc, err := plotter.NewLine(series(h.Forecast))
+	if err != nil {
+		return nil, fmt.Errorf("report: holdout: %w", err)
+	}
+	fc.LineStyle = draw.LineStyle{Color: blue, Width: vg.Points(1.6), Dashes: []vg.Length{vg.Points(5), vg.Points(2.5)}}
+	act, pts, err := plotter.NewLinePoints(series(h.Actual))
+	if err != nil {
+		return nil, fmt.Errorf("report: holdout: %w", err)
+	}
+	act.LineStyle = draw.LineStyle{Color: black, Width: vg.Points(1.2)}
+	pts.GlyphStyle = draw.GlyphStyle{Color: black, Radius: vg.Points(2.5), Shape: marker{disc}}
+	p.Add(fc, act, pts)
+	leg := newLegend()
+	leg.Add("actual", act, pts)
+	leg.Add("forecast", fc)
+	if poly != nil {
+		leg.Add("forecast band", poly)
+	}
+	return svgWithLegend(p, leg, 7*vg.Inch, 2.9*vg.Inch)
+}
