@@ -2,6 +2,7 @@ package record
 
 import (
 	"bytes"
+	"crypto/ed25519"
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
@@ -128,6 +129,7 @@ func PolicyKeyring(p *policies.Policy) (Keyring, error) {
 		if err != nil {
 			return nil, err
 		}
+		ring[role] = []ed25519.PublicKey{} // a role without keys is still a role
 		for i, b := range pems {
 			pub, err := ParsePublicKeyPEM(b)
 			if err != nil {

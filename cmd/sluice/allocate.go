@@ -42,7 +42,7 @@ func allocateCommand() *cli.Command {
 			var point model.Params
 			source := "the point fit only (no --draws given)"
 			if path := c.String("draws"); path != "" {
-				d, err := loadDraws(o, in, path)
+				d, err := loadDraws(in, path)
 				if err != nil {
 					return err
 				}

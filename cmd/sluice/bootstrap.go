@@ -231,7 +231,7 @@ func curvesCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
-			d, err := loadDraws(o, in, path)
+			d, err := loadDraws(in, path)
 			if err != nil {
 				return err
 			}

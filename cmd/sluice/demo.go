@@ -1,17 +1,26 @@
 package main
 
 import (
+	"crypto/rand"
+	"errors"
 	"fmt"
 	"io/fs"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 
 	"github.com/urfave/cli/v2"
 
 	"sluice/examples"
+	"sluice/internal/atomicfile"
 	"sluice/model"
+	"sluice/policies"
+	"sluice/record"
 )
+
+// demoDraws keeps the demo within a minute on two cores.
+const demoDraws = 300
 
 func demoCommand() *cli.Command {
 	return &cli.Command{
@@ -20,43 +29,125 @@ func demoCommand() *cli.Command {
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "out", Value: "sluice-demo", Usage: "directory for the demo's inputs and outputs"},
 			&cli.Uint64Flag{Name: "seed", Value: 1, Usage: "seed of every random stream"},
+			&cli.IntFlag{Name: "workers", Value: 2, Usage: "parallel workers"},
+			&cli.BoolFlag{Name: "quiet", Usage: "no progress bar"},
 		},
-		Action: func(c *cli.Context) error {
-			dir := c.String("out")
-			if err := os.MkdirAll(dir, 0o755); err != nil {
-				return err
-			}
-			if err := copyExamples(dir); err != nil {
-				return err
-			}
-			w := c.App.Writer
-			data := filepath.Join(dir, "weekly.csv")
-			fmt.Fprintf(w, "Fernhill Tea Co. (an invented company): %s\n\n", data)
-			p, err := model.LoadPanel(data, model.Columns{KPI: examples.KPI, Channels: examples.Channels, Controls: examples.Controls})
-			if err != nil {
-				return err
-			}
-			spec := model.NewSpec(examples.Channels, examples.Controls)
-			d, err := model.NewDesign(p, spec)
-			if err != nil {
-				return err
-			}
-			seed := c.Uint64("seed")
-			fr, err := d.Fit(p.KPI, model.FitSettings{Seed: seed, Workers: 2})
-			if err != nil {
-				return err
-			}
-			hash, err := sha256File(data)
-			if err != nil {
-				return err
-			}
-			in := &modelInput{DataPath: data, Panel: p, Spec: spec, Design: d, ValuePerKPI: 1, Seed: seed, DataSHA256: hash}
-			printFitTable(w, newFitSummary(in, fr))
-			fmt.Fprintf(w, "\nthe same by hand:\n  sluice fit --data %s --kpi %s --channels %s --controls %s\n",
-				data, examples.KPI, strings.Join(examples.Channels, ","), strings.Join(examples.Controls, ","))
-			return nil
-		},
+		Action: runDemo,
 	}
+}
+
+func runDemo(c *cli.Context) error {
+	dir := c.String("out")
+	w := c.App.Writer
+	if err := os.MkdirAll(filepath.Join(dir, "keys"), 0o755); err != nil {
+		return err
+	}
+	if err := guardSigned(dir, false); err != nil {
+		return withHint(err, "the demo never overwrites a signed record: pass another --out, or remove %s", dir)
+	}
+	if err := copyExamples(dir); err != nil {
+		return err
+	}
+	policyPath, roles, err := writeDemoPolicy(dir)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(w, "Fernhill Tea Co. (an invented company), %d weeks of data in %s\n\n", 156, filepath.Join(dir, "weekly.csv"))
+
+	data := filepath.Join(dir, "weekly.csv")
+	cols := model.Columns{KPI: examples.KPI, Channels: examples.Channels, Controls: examples.Controls}
+	p, err := model.LoadPanel(data, cols)
+	if err != nil {
+		return err
+	}
+	spec := model.NewSpec(examples.Channels, examples.Controls)
+	d, err := model.NewDesign(p, spec)
+	if err != nil {
+		return err
+	}
+	hash, err := sha256File(data)
+	if err != nil {
+		return err
+	}
+	in := &modelInput{DataPath: data, Panel: p, Spec: spec, Design: d, ValuePerKPI: 1, Seed: c.Uint64("seed"),
+		Workers: max(1, c.Int("workers")), DataSHA256: hash}
+	fr, err := d.Fit(p.KPI, model.FitSettings{Seed: in.Seed, Workers: in.Workers})
+	if err != nil {
+		return err
+	}
+	fmt.Fprintln(w, "1. the fitted model")
+	printFitTable(w, newFitSummary(in, fr))
+
+	fmt.Fprintf(w, "\n2-5. bootstrap (%d refits), validation, allocation and the gate under %s\n\n", demoDraws, policyPath)
+	run, err := decide(c, in, decisionArgs{Plan: filepath.Join(dir, "plan.yaml"), Policy: policyPath,
+		Lifts: filepath.Join(dir, "lifts.csv"), BootstrapDraws: demoDraws, Quiet: c.Bool("quiet")})
+	if err != nil {
+		return err
+	}
+	recPath := filepath.Join(dir, "decision.json")
+	if err := atomicfile.Write(recPath, run.bytes, 0o644); err != nil {
+		return err
+	}
+	brief, err := writeBrief(dir, run, "Fernhill Tea Co. (invented demo company)")
+	if err != nil {
+		return err
+	}
+	printDecision(w, run.rec)
+	fmt.Fprintf(w, "\nwrote %s, %s and %s\n", recPath, brief, policyPath)
+	fmt.Fprintf(w, "open the brief in a browser: %s\n\n", brief)
+	fmt.Fprintln(w, "next, sign with the demo keys (DEMO KEYS, never for real decisions) and verify:")
+	seen := map[string]bool{}
+	for _, s := range run.rec.SignoffsRequired {
+		if seen[s.Role] {
+			continue
+		}
+		seen[s.Role] = true
+		fmt.Fprintf(w, "  go run ./cmd/sluice sign --record %s --key %s --role %s\n", recPath, roles[s.Role], s.Role)
+	}
+	fmt.Fprintf(w, "  go run ./cmd/sluice verify --record %s --policy %s --data %s\n", recPath, policyPath, data)
+	fmt.Fprintf(w, "  go run ./cmd/sluice report --record %s --policy %s   # the brief again, showing who signed\n", recPath, policyPath)
+	return nil
+}
+
+// writeDemoPolicy writes DIR/policy.yaml: the standard preset with a demo
+// key pair per role (made once, in DIR/keys, and kept), and returns its
+// path and each role's private key path.
+func writeDemoPolicy(dir string) (string, map[string]string, error) {
+	std, err := policies.Preset("standard")
+	if err != nil {
+		return "", nil, err
+	}
+	text := string(std.Raw)
+	keys := map[string]string{}
+	for role := range std.Roles {
+		prefix := filepath.Join(dir, "keys", role)
+		keyPath, pubPath := prefix+".key", prefix+".pub"
+		if !fileExists(keyPath) {
+			if _, _, err := record.GenerateKeyFiles(prefix, rand.Reader); err != nil {
+				return "", nil, err
+			}
+		} else if !fileExists(pubPath) {
+			return "", nil, fmt.Errorf("%s exists without %s; remove the demo directory", keyPath, pubPath)
+		}
+		keys[role] = keyPath
+		// The role's block in the preset lists no keys; list the demo key.
+		re := regexp.MustCompile(`(?m)^(  ` + regexp.QuoteMeta(role) + `:\n(?:    .*\n)*?    keys: )\[\]`)
+		if !re.MatchString(text) {
+			return "", nil, errors.New("demo: the standard preset's role " + role + " has no empty keys list")
+		}
+		text = re.ReplaceAllString(text, "${1}[keys/"+role+".pub]   # DEMO KEY")
+	}
+	text = strings.Replace(text, "name: standard", "name: fernhill-demo", 1)
+	text = "# DEMO POLICY for the invented Fernhill Tea Co.: the standard preset with demo\n" +
+		"# signing keys (keys/*.pub). Demo keys are for trying sluice only.\n" + text
+	path := filepath.Join(dir, "policy.yaml")
+	if err := atomicfile.Write(path, []byte(text), 0o644); err != nil {
+		return "", nil, err
+	}
+	if _, err := policies.Load(path); err != nil {
+		return "", nil, fmt.Errorf("demo policy: %w", err)
+	}
+	return path, keys, nil
 }
 
 // copyExamples writes the embedded scenario files into dir.
@@ -69,6 +160,6 @@ func copyExamples(dir string) error {
 		if err != nil {
 			return err
 		}
-		return os.WriteFile(filepath.Join(dir, path), b, 0o644)
+		return atomicfile.Write(filepath.Join(dir, path), b, 0o644)
 	})
 }

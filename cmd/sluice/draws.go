@@ -17,7 +17,7 @@ import (
 
 // loadDraws reads a draws file and checks it against the data and spec it
 // is used with, naming the files in a mismatch.
-func loadDraws(o *opts, in *modelInput, path string) (*uncertainty.Draws, error) {
+func loadDraws(in *modelInput, path string) (*uncertainty.Draws, error) {
 	d, err := uncertainty.ReadDraws(path)
 	if err != nil {
 		return nil, err
@@ -31,8 +31,8 @@ func loadDraws(o *opts, in *modelInput, path string) (*uncertainty.Draws, error)
 				named.GivenName = in.DataPath
 			case "spec":
 				named.GivenName = "this spec"
-				if s := o.String("spec"); s != "" {
-					named.GivenName = s
+				if in.SpecPath != "" {
+					named.GivenName = in.SpecPath
 				}
 			}
 			return nil, withHint(&named, "pass the --data, --spec and model flags the draws were made with")
@@ -47,9 +47,9 @@ func loadDraws(o *opts, in *modelInput, path string) (*uncertainty.Draws, error)
 
 // drawsFor returns the draws of the file given, or runs a bootstrap of n
 // replicates here when no file is given (progress on a terminal).
-func drawsFor(c *cli.Context, o *opts, in *modelInput, path string, n int, quiet bool) (*uncertainty.Draws, string, error) {
+func drawsFor(c *cli.Context, in *modelInput, path string, n int, quiet bool) (*uncertainty.Draws, string, error) {
 	if path != "" {
-		d, err := loadDraws(o, in, path)
+		d, err := loadDraws(in, path)
 		return d, path, err
 	}
 	ctx, stop := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)

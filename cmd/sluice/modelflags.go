@@ -41,6 +41,7 @@ type modelInput struct {
 	Seed        uint64
 	Workers     int
 	DataSHA256  string
+	SpecPath    string
 	SpecSHA256  string // "" without a spec file
 }
 
@@ -55,6 +56,7 @@ func loadModelInput(o *opts) (*modelInput, error) {
 	}
 	var specFile *model.SpecFile
 	specPath := o.String("spec")
+	in.SpecPath = specPath
 	controls := o.List("controls")
 	if specPath != "" {
 		f, err := model.LoadSpecFile(specPath)

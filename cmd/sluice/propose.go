@@ -69,7 +69,7 @@ func proposeCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
-			run, err := decide(c, o, in)
+			run, err := decide(c, in, decisionArgsFrom(c, o))
 			if err != nil {
 				return err
 			}
@@ -80,7 +80,7 @@ func proposeCommand() *cli.Command {
 			if err := atomicfile.Write(path, run.bytes, 0o644); err != nil {
 				return err
 			}
-			brief, err := writeBrief(dir, run, nil)
+			brief, err := writeBrief(dir, run, "")
 			if err != nil {
 				return err
 			}
@@ -141,10 +141,23 @@ type proposalFile struct {
 	Channels map[string]float64 `yaml:"channels"`
 }
 
+// decisionArgs are the inputs of a decision besides the model's.
+type decisionArgs struct {
+	Plan, Policy, Draws, Lifts, Records, Proposal, Waivers string
+	BootstrapDraws                                          int
+	Quiet                                                   bool
+}
+
+func decisionArgsFrom(c *cli.Context, o *opts) decisionArgs {
+	return decisionArgs{Plan: o.String("plan"), Policy: o.String("policy"), Draws: c.String("draws"),
+		Lifts: o.String("lifts"), Records: o.String("records"), Proposal: o.String("proposal"),
+		Waivers: o.String("waivers"), BootstrapDraws: o.Int("bootstrap-draws"), Quiet: o.Bool("quiet")}
+}
+
 // decide runs the whole decision: draws, evidence, allocation, gate,
 // forecast, record.
-func decide(c *cli.Context, o *opts, in *modelInput) (*decisionRun, error) {
-	planPath := o.String("plan")
+func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error) {
+	planPath := a.Plan
 	if planPath == "" {
 		return nil, withHint(errors.New("propose needs --plan"), "pass --plan plan.yaml (see README, \"The plan file\")")
 	}
@@ -152,7 +165,7 @@ func decide(c *cli.Context, o *opts, in *modelInput) (*decisionRun, error) {
 	if err != nil {
 		return nil, err
 	}
-	pol, err := policies.Resolve(o.String("policy"))
+	pol, err := policies.Resolve(a.Policy)
 	if err != nil {
 		return nil, err
 	}
@@ -168,19 +181,19 @@ func decide(c *cli.Context, o *opts, in *modelInput) (*decisionRun, error) {
 		inputs[name] = record.Input{Path: path, SHA256: h}
 		return nil
 	}
-	if err := addInput("spec", o.String("spec")); err != nil {
-		return nil, err
+	if in.SpecPath != "" {
+		inputs["spec"] = record.Input{Path: in.SpecPath, SHA256: in.SpecSHA256}
 	}
 	if err := addInput("plan", planPath); err != nil {
 		return nil, err
 	}
 	policyPath := pol.Source
-	if _, err := os.Stat(o.String("policy")); err != nil {
+	if _, err := os.Stat(a.Policy); err != nil {
 		policyPath = "preset:" + pol.Name
 	}
 	inputs["policy"] = record.Input{Path: policyPath, SHA256: record.SHA256Hex(pol.Raw)}
 
-	d, drawsPath, err := drawsFor(c, o, in, c.String("draws"), o.Int("bootstrap-draws"), o.Bool("quiet"))
+	d, drawsPath, err := drawsFor(c, in, a.Draws, a.BootstrapDraws, a.Quiet)
 	if err != nil {
 		return nil, err
 	}
@@ -194,7 +207,7 @@ func decide(c *cli.Context, o *opts, in *modelInput) (*decisionRun, error) {
 	// Evidence.
 	prob := validation.Problem{Panel: in.Panel, Design: in.Design,
 		Draws: &validation.Draws{Params: draws, Failed: d.Failed()}}
-	if path := o.String("lifts"); path != "" {
+	if path := a.Lifts; path != "" {
 		if prob.Lifts, err = validation.LoadLifts(path, in.Panel); err != nil {
 			return nil, err
 		}
@@ -202,7 +215,7 @@ func decide(c *cli.Context, o *opts, in *modelInput) (*decisionRun, error) {
 			return nil, err
 		}
 	}
-	if dir := o.String("records"); dir != "" {
+	if dir := a.Records; dir != "" {
 		if prob.Forecasts, err = validation.LoadForecasts(dir); err != nil {
 			return nil, err
 		}
@@ -220,7 +233,7 @@ func decide(c *cli.Context, o *opts, in *modelInput) (*decisionRun, error) {
 	econ := optimize.Economics{Horizon: h, Margin: plan.Margin, ValuePerKPI: plan.ValuePerKPI}
 	var proposed []float64
 	var proposal record.Proposal
-	if path := o.String("proposal"); path != "" {
+	if path := a.Proposal; path != "" {
 		var pf proposalFile
 		if err := strictyaml.ReadFile(path, &pf); err != nil {
 			return nil, err
@@ -255,11 +268,11 @@ func decide(c *cli.Context, o *opts, in *modelInput) (*decisionRun, error) {
 	}
 
 	// The gate.
-	waivers, err := signedWaivers(o.String("waivers"), pol)
+	waivers, err := signedWaivers(a.Waivers, pol)
 	if err != nil {
 		return nil, err
 	}
-	if err := addInput("waivers", o.String("waivers")); err != nil {
+	if err := addInput("waivers", a.Waivers); err != nil {
 		return nil, err
 	}
 	low, high := in.Design.Support()

@@ -64,6 +64,8 @@ func verifyCommand() *cli.Command {
 	}
 }
 
+func policiesResolve(arg string) (*policies.Policy, error) { return policies.Resolve(arg) }
+
 func fileExists(p string) bool {
 	_, err := os.Stat(p)
 	return err == nil
