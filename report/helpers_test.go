@@ -123,7 +123,7 @@ func testRecord() *record.Decision {
 		Forecast: validation.Forecast{Start: "2026-01-05", Weeks: testHorizon, Plan: map[string]float64{},
 			Band: validation.Band{P05: band, P50: band, P95: band}},
 		ForecastTotal: [3]float64{5100000, 5300000, 5500000},
-		Caution: record.Caution,
+		Caution:       record.Caution,
 	}
 }
 

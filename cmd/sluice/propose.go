@@ -144,8 +144,8 @@ type proposalFile struct {
 // decisionArgs are the inputs of a decision besides the model's.
 type decisionArgs struct {
 	Plan, Policy, Draws, Lifts, Records, Proposal, Waivers string
-	BootstrapDraws                                          int
-	Quiet                                                   bool
+	BootstrapDraws                                         int
+	Quiet                                                  bool
 }
 
 func decisionArgsFrom(c *cli.Context, o *opts) decisionArgs {
@@ -292,7 +292,7 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	rec := &record.Decision{Format: record.DecisionFormat, Tool: "sluice", Version: version, Seed: in.Seed,
 		KPI: in.Panel.KPIName, AsOf: in.Panel.Weeks[in.Panel.NumWeeks()-1].Format(time.DateOnly),
 		Channels: in.Spec.ChannelNames(), Horizon: h, Inputs: inputs, PolicySHA256: record.SHA256Hex(pol.Raw),
-		Draws: record.DrawsInfo{Count: len(d.Replicates), Failed: d.Failed(), Method: string(d.Header.Method), BlockLength: d.Header.BlockLength},
+		Draws:    record.DrawsInfo{Count: len(d.Replicates), Failed: d.Failed(), Method: string(d.Header.Method), BlockLength: d.Header.BlockLength},
 		Proposal: proposal, Decision: *gd, Caution: record.Caution}
 	sum := val.Evidence.Summary()
 	rec.Evidence = map[string]int{"pass": sum[validation.Pass], "warn": sum[validation.Warn], "fail": sum[validation.Fail]}
