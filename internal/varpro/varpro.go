@@ -122,22 +122,26 @@ func NewSolver(p *Problem) (*Solver, error) {
 		if r != n {
 			panic("varpro: fixed columns and observations differ in length")
 		}
-		var qr mat.QR
-		qr.Factorize(p.Fixed)
-		var q mat.Dense
-		qr.QTo(&q)
+		// Orthonormalize the fixed columns by modified Gram–Schmidt with
+		// one reorthogonalization pass: the thin basis costs O(n·p²),
+		// where forming QR's full n×n Q would cost O(n²·p).
 		s.qf = alloc(c, n)
 		for j := range c {
-			mat.Col(s.qf[j], j, &q)
-		}
-		s.nf = c
-		var rr mat.Dense
-		qr.RTo(&rr)
-		for i := range c {
-			if math.Abs(rr.At(i, i)) < 1e-12*math.Abs(rr.At(0, 0)) {
+			q := s.qf[j]
+			mat.Col(q, j, p.Fixed)
+			norm0 := math.Sqrt(dot(q, q))
+			for pass := 0; pass < 2; pass++ {
+				for _, b := range s.qf[:j] {
+					axpy(-dot(b, q), b, q)
+				}
+			}
+			nrm := math.Sqrt(dot(q, q))
+			if norm0 == 0 || nrm <= 1e-10*norm0 {
 				return nil, errors.New("varpro: the fixed columns are linearly dependent")
 			}
+			scale(1/nrm, q)
 		}
+		s.nf = c
 		s.projectFixed(s.yt)
 	}
 	L := p.NumVarying
