@@ -5,6 +5,8 @@ import (
 	"math"
 	"strconv"
 	"strings"
+
+	"sluice/internal/words"
 )
 
 // The words of the decision: reasons a finance partner can read without the
@@ -16,19 +18,11 @@ func money(x float64) string {
 	if math.Abs(x) < 100 {
 		return strconv.FormatFloat(x, 'g', 3, 64)
 	}
-	s := strconv.FormatFloat(math.Abs(math.Round(x)), 'f', 0, 64)
-	var b strings.Builder
-	if x < 0 {
-		b.WriteByte('-')
-	}
-	for i, r := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(r)
-	}
-	return b.String()
+	return words.Thousands(x)
 }
+
+func percentile(level float64) string { return words.Percentile(level) }
+func joinAnd(w []string) string       { return words.JoinAnd(w) }
 
 func perWeek(x float64) string { return money(x) + "/week" }
 
@@ -36,37 +30,6 @@ func perWeek(x float64) string { return money(x) + "/week" }
 func pct(p float64) string {
 	s := strconv.FormatFloat(p*100, 'f', 1, 64)
 	return strings.TrimSuffix(s, ".0") + "%"
-}
-
-// percentile names a quantile level: 0.05 → "5th percentile".
-func percentile(level float64) string {
-	v := level * 100
-	s := strings.TrimSuffix(strconv.FormatFloat(v, 'f', 1, 64), ".0")
-	suffix := "th"
-	if v == math.Trunc(v) {
-		n := int(v)
-		switch {
-		case n%100 >= 11 && n%100 <= 13:
-		case n%10 == 1:
-			suffix = "st"
-		case n%10 == 2:
-			suffix = "nd"
-		case n%10 == 3:
-			suffix = "rd"
-		}
-	}
-	return s + suffix + " percentile"
-}
-
-// joinAnd joins words as "a", "a and b", "a, b and c".
-func joinAnd(w []string) string {
-	switch len(w) {
-	case 0:
-		return ""
-	case 1:
-		return w[0]
-	}
-	return strings.Join(w[:len(w)-1], ", ") + " and " + w[len(w)-1]
 }
 
 // clause says how a move breaks one limit, as a predicate ("has a 23%

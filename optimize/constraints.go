@@ -7,6 +7,8 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+
+	"sluice/internal/words"
 )
 
 // Constraints are the limits a plan must meet. A plan w gives the weekly
@@ -428,16 +430,6 @@ func complement(n int, idx []int) []int {
 	return out
 }
 
-func joinAnd(s []string) string {
-	switch len(s) {
-	case 0:
-		return ""
-	case 1:
-		return s[0]
-	}
-	return strings.Join(s[:len(s)-1], ", ") + " and " + s[len(s)-1]
-}
-
 // money formats a currency amount with thousands separators, rounded to a
 // whole unit when it is large.
 func money(x float64) string {
@@ -471,3 +463,5 @@ func money2(a, b float64) string {
 }
 
 func share(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+
+func joinAnd(w []string) string { return words.JoinAnd(w) }

@@ -8,6 +8,7 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/internal/words"
 	"sluice/model"
 	"sluice/optimize"
 )
@@ -145,29 +146,5 @@ func printAllocation(w io.Writer, a allocateOutput) {
 	fmt.Fprintln(w, "this is a proposal: `sluice propose` sizes each move to what the evidence supports")
 }
 
-// money formats currency with thousands separators and no decimals.
-func money(v float64) string {
-	neg := v < 0
-	if neg {
-		v = -v
-	}
-	s := fmt.Sprintf("%.0f", v)
-	var out []byte
-	for i, ch := range []byte(s) {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			out = append(out, ',')
-		}
-		out = append(out, ch)
-	}
-	if neg {
-		return "-" + string(out)
-	}
-	return string(out)
-}
-
-func signedMoney(v float64) string {
-	if v > 0 {
-		return "+" + money(v)
-	}
-	return money(v)
-}
+func money(v float64) string       { return words.Thousands(v) }
+func signedMoney(v float64) string { return words.Signed(v) }
