@@ -188,7 +188,17 @@ func (d *Design) Fit(y []float64, set FitSettings) (*FitResult, error) {
 		return nil, err
 	}
 	starts := d.starts(set)
-	workers := max(set.Workers, 1)
+	solvers := make([]*varpro.Solver, min(max(set.Workers, 1), len(starts)))
+	for i := range solvers {
+		solvers[i] = newWorkspace(d, y).solver
+	}
+	return d.multiStart(y, starts, solvers, set)
+}
+
+// multiStart runs the starts on the solvers (one goroutine each) and keeps
+// the best; ties go to the earlier start, so the result does not depend on
+// scheduling.
+func (d *Design) multiStart(y []float64, starts [][]float64, solvers []*varpro.Solver, set FitSettings) (*FitResult, error) {
 	type outcome struct {
 		res varpro.Result
 		err error
@@ -196,13 +206,12 @@ func (d *Design) Fit(y []float64, set FitSettings) (*FitResult, error) {
 	out := make([]outcome, len(starts))
 	var wg sync.WaitGroup
 	next := make(chan int)
-	for range min(workers, len(starts)) {
+	for _, s := range solvers {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			w := newWorkspace(d, y)
 			for i := range next {
-				r, err := w.solver.Solve(starts[i], varpro.Settings{MaxEvaluations: set.MaxEvaluations})
+				r, err := s.Solve(starts[i], varpro.Settings{MaxEvaluations: set.MaxEvaluations})
 				out[i] = outcome{r, err}
 			}
 		}()
@@ -222,8 +231,6 @@ func (d *Design) Fit(y []float64, set FitSettings) (*FitResult, error) {
 		if o.res.Status == varpro.Converged {
 			fr.Converged++
 		}
-		// Ties go to the earlier start so the result does not depend on
-		// scheduling.
 		if best < 0 || o.res.RSS < out[best].res.RSS {
 			best = i
 		}

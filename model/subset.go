@@ -1,8 +1,6 @@
 package model
 
 import (
-	"math"
-	"sync"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -176,53 +174,5 @@ func fitExtended(d *Design, y []float64, rows []int, lifts []liftRow, set FitSet
 		}
 		solvers[i] = s
 	}
-	type outcome struct {
-		res varpro.Result
-		err error
-	}
-	out := make([]outcome, len(starts))
-	var wg sync.WaitGroup
-	next := make(chan int)
-	for _, s := range solvers {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for i := range next {
-				r, err := s.Solve(starts[i], varpro.Settings{MaxEvaluations: set.MaxEvaluations})
-				out[i] = outcome{r, err}
-			}
-		}()
-	}
-	for i := range starts {
-		next <- i
-	}
-	close(next)
-	wg.Wait()
-	best := -1
-	fr := &FitResult{StartsTried: len(starts)}
-	for i, o := range out {
-		if o.err != nil {
-			continue
-		}
-		fr.Evaluations += o.res.Evaluations
-		if o.res.Status == varpro.Converged {
-			fr.Converged++
-		}
-		if best < 0 || o.res.RSS < out[best].res.RSS {
-			best = i
-		}
-	}
-	if best < 0 || math.IsInf(out[best].res.RSS, 0) {
-		return nil, ErrNoFit
-	}
-	r := out[best].res
-	fr.SSE = r.RSS
-	fr.Status = r.Status
-	fr.Params = d.unpack(r.Theta, r.Coef, r.FixedCoef)
-	fr.Fitted = d.Predict(fr.Params)
-	fr.Residuals = make([]float64, d.N)
-	for t := range y {
-		fr.Residuals[t] = y[t] - fr.Fitted[t]
-	}
-	return fr, nil
+	return d.multiStart(y, starts, solvers, set)
 }

@@ -69,9 +69,8 @@ func bootstrapCommand() *cli.Command {
 			quiet := o.Bool("quiet")
 			b := &uncertainty.Bootstrap{Design: in.Design, Y: in.Panel.KPI, Method: method, BlockLength: bl,
 				Draws: draws, Seed: in.Seed, Shard: shard, Workers: in.Workers}
-			var bar *replicateBar
-			if f, ok := c.App.ErrWriter.(*os.File); ok && !quiet && term.IsTerminal(int(f.Fd())) {
-				bar = &replicateBar{w: f, start: time.Now()}
+			bar := progressBar(c, quiet)
+			if bar != nil {
 				b.Progress = bar.update
 			}
 			d, err := b.Run(ctx)
@@ -162,6 +161,14 @@ func (p *replicateBar) update(done, total int) {
 	fmt.Fprintf(p.w, "\r[%s%s] %d/%d replicates  %.1f/s  %s left   ",
 		strings.Repeat("=", fill), strings.Repeat(" ", width-fill), done, total, rate, left)
 	p.drawn = true
+}
+
+// progressBar returns a bar on stderr when it is a terminal and not quiet.
+func progressBar(c *cli.Context, quiet bool) *replicateBar {
+	if f, ok := c.App.ErrWriter.(*os.File); ok && !quiet && term.IsTerminal(int(f.Fd())) {
+		return &replicateBar{w: f, start: time.Now()}
+	}
+	return nil
 }
 
 func (p *replicateBar) finish() {

@@ -6,10 +6,8 @@ import (
 	"os"
 	"os/signal"
 	"syscall"
-	"time"
 
 	"github.com/urfave/cli/v2"
-	"golang.org/x/term"
 
 	"sluice/model"
 	"sluice/uncertainty"
@@ -56,9 +54,8 @@ func drawsFor(c *cli.Context, in *modelInput, path string, n int, quiet bool) (*
 	defer stop()
 	b := &uncertainty.Bootstrap{Design: in.Design, Y: in.Panel.KPI, Method: uncertainty.MovingBlock,
 		Draws: n, Seed: in.Seed, Workers: in.Workers}
-	var bar *replicateBar
-	if f, ok := c.App.ErrWriter.(*os.File); ok && !quiet && term.IsTerminal(int(f.Fd())) {
-		bar = &replicateBar{w: f, start: time.Now()}
+	bar := progressBar(c, quiet)
+	if bar != nil {
 		b.Progress = bar.update
 	}
 	d, err := b.Run(ctx)
