@@ -18,6 +18,9 @@ func validateCommand() *cli.Command {
 		Name:  "validate",
 		Usage: "check the model from five angles: holdout, recovery, stability, lift tests, past forecasts",
 		Flags: append(modelFlags(),
+			&cli.StringFlag{Name: "draws", Usage: "draws file from sluice bootstrap (command line only); without it a bootstrap of --bootstrap-draws runs here"},
+			&cli.IntFlag{Name: "bootstrap-draws", Value: DefaultDecisionDraws, Usage: "replicates of the bootstrap run here when no --draws is given (0: skip the checks that need draws)"},
+			&cli.BoolFlag{Name: "quiet", Usage: "no progress bar"},
 			&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV: channel,start,end,incremental,std_error"},
 			&cli.BoolFlag{Name: "calibrate", Usage: "also refit with the lift tests in the objective and report the ROI it gives"},
 			&cli.StringFlag{Name: "records", Usage: "directory of earlier forecasts (*.json) to reconcile with the data"},
@@ -57,6 +60,7 @@ type statusCount struct {
 
 type validateInputs struct {
 	inputHashes
+	Draws       string      `json:"draws,omitempty"`
 	Lifts       string      `json:"lifts,omitempty"`
 	LiftsSHA256 string      `json:"lifts_sha256,omitempty"`
 	Records     []hashedRef `json:"records,omitempty"`
@@ -110,6 +114,15 @@ func runValidate(c *cli.Context) error {
 			Replicates: set.Replicates, BlockWeeks: set.BlockWeeks, Calibrate: o.Bool("calibrate")},
 		Thresholds: th}
 	prob := validation.Problem{Panel: in.Panel, Design: in.Design, Calibrate: o.Bool("calibrate")}
+	if c.String("draws") != "" || o.Int("bootstrap-draws") > 0 {
+		d, path, err := drawsFor(c, in, c.String("draws"), o.Int("bootstrap-draws"), o.Bool("quiet"))
+		if err != nil {
+			return err
+		}
+		prob.Draws = &validation.Draws{Params: d.Params(), Failed: d.Failed()}
+		out.Settings.Draws = len(d.Replicates)
+		out.Inputs.Draws = path
+	}
 	if path := o.String("lifts"); path != "" {
 		if prob.Lifts, err = validation.LoadLifts(path, in.Panel); err != nil {
 			return err
@@ -146,7 +159,11 @@ func runValidate(c *cli.Context) error {
 			out.Calibration = append(out.Calibration, calibratedROI{Channel: name, ROI: cal.Before[k], ROICal: cal.After[k]})
 		}
 	}
-	out.Notes = append(out.Notes, "without bootstrap draws the checks of the ROI spread over draws (stability/roi_cv, stability/break_even) did not run and lift z counts the experiment's error only")
+	if prob.Draws == nil {
+		out.Notes = append(out.Notes, "without bootstrap draws the checks of the ROI spread over draws (stability/roi_cv, stability/break_even) did not run and lift z counts the experiment's error only")
+	} else if out.Inputs.Draws == "" {
+		out.Notes = append(out.Notes, fmt.Sprintf("the checks that need draws used a bootstrap of %d replicates run here (seed %d)", out.Settings.Draws, in.Seed))
+	}
 	if o.String("records") != "" && len(prob.Forecasts) == 0 {
 		out.Notes = append(out.Notes, "no *.json forecasts in "+o.String("records"))
 	}
