@@ -385,11 +385,15 @@ func printDecision(w io.Writer, r *record.Decision) {
 	}
 	tw.Flush()
 	a := r.Risk.Approved
-	fmt.Fprintf(w, "\nverdict: %s", strings.ToUpper(string(r.Verdict)))
-	if len(r.Reasons) > 0 {
-		fmt.Fprintf(w, " — %s", r.Reasons[0])
+	fmt.Fprintf(w, "\nverdict: %s\n", strings.ToUpper(string(r.Verdict)))
+	for i, why := range r.Reasons {
+		if i == 3 {
+			fmt.Fprintf(w, "  ... and %d more in %s\n", len(r.Reasons)-3, "decision.json")
+			break
+		}
+		fmt.Fprintf(w, "  - %s\n", why)
 	}
-	fmt.Fprintf(w, "\napproved plan: expected gain %s over the horizon (5%%–95%%: %s to %s), probability of loss %.0f%%\n",
+	fmt.Fprintf(w, "approved plan: expected gain %s over the horizon (5%%–95%%: %s to %s), probability of loss %.0f%%\n",
 		signedMoney(a.ExpectedGain), signedMoney(a.P05), signedMoney(a.P95), 100*a.PLoss)
 	fmt.Fprintln(w, "sign-offs required:")
 	for _, s := range r.SignoffsRequired {
