@@ -1,7 +1,6 @@
 package model
 
 import (
-
 	"gonum.org/v1/gonum/mat"
 
 	"sluice/internal/varpro"
