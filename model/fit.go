@@ -340,23 +340,31 @@ func (d *Design) pack(p Params) []float64 {
 func (d *Design) unpack(theta, coef, fixed []float64) Params {
 	p := Params{Channels: make([]ChannelParams, len(d.Spec.Channels)), Fixed: append([]float64(nil), fixed...)}
 	j := 0
-	for k, c := range d.Spec.Channels {
-		cp := &p.Channels[k]
-		cp.Decay = theta[j]
-		j++
-		if c.Adstock == AdstockDelayed {
-			cp.Peak = theta[j]
-			j++
-		}
-		cp.HalfSat = theta[j]
-		j++
-		if c.Saturation == SaturationHill {
-			cp.Shape = theta[j]
-			j++
-		}
-		cp.Beta = coef[k]
+	for k := range d.Spec.Channels {
+		p.Channels[k], j = d.channelParams(theta, j, k)
+		p.Channels[k].Beta = coef[k]
 	}
 	return p
+}
+
+// channelParams reads channel k's nonlinear parameters from theta at
+// offset j (layout: decay, peak if delayed, half saturation, shape if Hill)
+// and returns them with the offset of the next channel.
+func (d *Design) channelParams(theta []float64, j, k int) (ChannelParams, int) {
+	c := d.Spec.Channels[k]
+	cp := ChannelParams{Decay: theta[j]}
+	j++
+	if c.Adstock == AdstockDelayed {
+		cp.Peak = theta[j]
+		j++
+	}
+	cp.HalfSat = theta[j]
+	j++
+	if c.Saturation == SaturationHill {
+		cp.Shape = theta[j]
+		j++
+	}
+	return cp, j
 }
 
 // Media writes channel k's media column sat(adstock(x_k)) under cp into dst.
@@ -451,18 +459,7 @@ func (w *workspace) columns(theta []float64, cols [][]float64) {
 	j := 0
 	for k, c := range d.Spec.Channels {
 		var cp ChannelParams
-		cp.Decay = theta[j]
-		j++
-		if c.Adstock == AdstockDelayed {
-			cp.Peak = theta[j]
-			j++
-		}
-		cp.HalfSat = theta[j]
-		j++
-		if c.Saturation == SaturationHill {
-			cp.Shape = theta[j]
-			j++
-		}
+		cp, j = d.channelParams(theta, j, k)
 		d.adstock(w.a[k], w.dl[k], w.dp[k], k, cp)
 		K := d.HalfSatLevel(k, cp)
 		a, lr, h, col := w.a[k], w.lr[k], w.h[k], cols[k]
