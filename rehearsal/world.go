@@ -45,8 +45,10 @@ type World struct {
 	Channel string // the affected channel; "" for WellSpecified
 	Draw    int    // the base bootstrap draw its parameters come from
 	Seed    uint64 // seeds the decision process run on the world
-	// Truth is the true response at the end of the history: what a plan
-	// for the horizon meets.
+	// Truth is the true response a plan for the horizon meets: the
+	// end-of-history truth (after a drift or break), and for a season the
+	// channel's mean effectiveness over the horizon's own weeks. A
+	// confounder is not caused by spend, so it is not in the truth.
 	Truth model.Params
 	Panel *model.Panel
 }

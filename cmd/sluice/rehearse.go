@@ -56,7 +56,7 @@ func rehearseCommand() *cli.Command {
 				return err
 			}
 			names := c.StringSlice("policy")
-			if len(names) == 0 {
+			if len(names) == 0 && o.fromConfig("policy") {
 				names = o.List("policy")
 			}
 			if len(names) == 0 {
