@@ -39,6 +39,7 @@ func rehearseCommand() *cli.Command {
 			&cli.IntFlag{Name: "base-draws", Value: 100, Usage: "bootstrap replicates of the data that worlds take their parameters from"},
 			&cli.IntFlag{Name: "world-draws", Value: 60, Usage: "bootstrap replicates of each world's decision"},
 			&cli.IntFlag{Name: "world-replicates", Value: 8, Usage: "recovery-check panels of each world's validation"},
+			&cli.StringFlag{Name: "out", Usage: "also write every world's outcome (kind, failed checks, each plan's true gain and verdict) to this JSON file"},
 			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress line"},
 		),
@@ -106,6 +107,14 @@ func rehearseCommand() *cli.Command {
 			}
 			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), Misspecified: set.Misspecified,
 				Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw, FailedShare: r.FailedShare, Errors: r.Errors}
+			if path := o.String("out"); path != "" {
+				if err := writeJSON(path, struct {
+					rehearseOutput
+					Outcomes []rehearsal.Outcome `json:"outcomes"`
+				}{out, r.Worlds}); err != nil {
+					return err
+				}
+			}
 			if o.Bool("json") {
 				return printJSON(c.App.Writer, out)
 			}
