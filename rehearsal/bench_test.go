@@ -1,6 +1,9 @@
 package rehearsal
 
-import "testing"
+import (
+	"context"
+	"testing"
+)
 
 // BenchmarkDecideWorld is the cost of one world with the default sizes
 // (fit, 60 bootstrap refits, validation with 8 recovery panels, two
@@ -15,7 +18,7 @@ func BenchmarkDecideWorld(b *testing.B) {
 	base := &base{panel: p.Panel, design: p.Design, draws: []Params{fit.Params}, resid: fit.Residuals, block: 4, horiz: p.Plan.HorizonWeeks}
 	w := base.world(5, 0, 0, nil)
 	for b.Loop() {
-		if _, err := decideWorld(p, s, w); err != nil {
+		if _, err := decideWorld(context.Background(), p, s, w); err != nil {
 			b.Fatal(err)
 		}
 	}

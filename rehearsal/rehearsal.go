@@ -83,10 +83,16 @@ func (s Settings) withDefaults() Settings {
 
 // Score is one plan's outcome in one world.
 type Score struct {
-	Plan     []float64    `json:"plan"`      // weekly spend per channel
-	TrueGain float64      `json:"true_gain"` // over the horizon, against the status quo, under the truth
-	Lost     bool         `json:"lost"`      // TrueGain < 0
-	Verdict  gate.Verdict `json:"verdict,omitempty"`
+	Plan     []float64 `json:"plan"`      // weekly spend per channel
+	TrueGain float64   `json:"true_gain"` // over the horizon, against the status quo, under the truth
+	Lost     bool      `json:"lost"`      // TrueGain < 0
+	// OracleShare is TrueGain over the oracle's true gain (0 when the
+	// oracle gains nothing).
+	OracleShare float64      `json:"oracle_share"`
+	Verdict     gate.Verdict `json:"verdict,omitempty"`
+	// Acted names the checks (name/scope) whose policy action the gate
+	// applied: refuse, hold or cap (a policy's plans only).
+	Acted []string `json:"acted,omitempty"`
 }
 
 // Outcome is one world's result.
@@ -172,7 +178,10 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 		if s.truthFromFit {
 			w.Kind, w.Channel = WellSpecified, ""
 		}
-		out, err := decideWorld(p, s, w)
+		out, err := decideWorld(ctx, p, s, w)
+		if err != nil && ctx.Err() != nil {
+			return nil, ctx.Err()
+		}
 		if err != nil {
 			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Err: err.Error()}
 		}
@@ -187,7 +196,7 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 
 // decideWorld runs the decision process on w's panel and scores each plan
 // under w's truth.
-func decideWorld(p Problem, s Settings, w *World) (*Outcome, error) {
+func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome, error) {
 	dw, err := model.NewDesign(w.Panel, p.Design.Spec)
 	if err != nil {
 		return nil, err
@@ -198,7 +207,7 @@ func decideWorld(p Problem, s Settings, w *World) (*Outcome, error) {
 		return nil, fmt.Errorf("fit: %w", err)
 	}
 	bs := &uncertainty.Bootstrap{Design: dw, Y: y, Draws: s.WorldDraws, Seed: w.Seed, Workers: s.Workers, Full: fit}
-	bd, err := bs.Run(context.Background())
+	bd, err := bs.Run(ctx)
 	if err != nil {
 		return nil, fmt.Errorf("bootstrap: %w", err)
 	}
@@ -248,9 +257,14 @@ func decideWorld(p Problem, s Settings, w *World) (*Outcome, error) {
 	if err != nil {
 		return nil, fmt.Errorf("oracle allocation: %w", err)
 	}
+	og := econ.Gains(nil, truth, oracle.Proposed, current)[0]
 	score := func(plan []float64) Score {
 		g := econ.Gains(nil, truth, plan, current)[0]
-		return Score{Plan: slices.Clone(plan), TrueGain: g, Lost: g < 0}
+		sc := Score{Plan: slices.Clone(plan), TrueGain: g, Lost: g < 0}
+		if og > 0 {
+			sc.OracleShare = g / og
+		}
+		return sc
 	}
 	out.Oracle = score(oracle.Proposed)
 	out.Raw = score(raw.Proposed)
@@ -270,6 +284,11 @@ func decideWorld(p Problem, s Settings, w *World) (*Outcome, error) {
 		}
 		sc := score(gd.ApprovedPlan)
 		sc.Verdict = gd.Verdict
+		for _, cu := range gd.Checks {
+			if cu.WaivedBy == "" && (cu.Action == policies.Refuse || cu.Action == policies.Hold || cu.Action == policies.Cap) {
+				sc.Acted = append(sc.Acted, cu.Name+"/"+cu.Scope)
+			}
+		}
 		out.Policies = append(out.Policies, sc)
 	}
 	return out, nil
