@@ -197,4 +197,7 @@ func TestValidationSeesDetectableDepartures(t *testing.T) {
 	if !(sb > sw) {
 		t.Errorf("drift/confounder worlds fail %.3f of checks, not more than their well-specified twins' %.3f", sb, sw)
 	}
+	if !(ab > aw) {
+		t.Errorf("drift/confounder worlds fail %d accuracy checks, not more than their twins' %d", ab, aw)
+	}
 }

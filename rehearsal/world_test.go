@@ -119,3 +119,71 @@ func TestBreakChangesTheEndOfHistoryTruth(t *testing.T) {
 		t.Errorf("β after the break is ×%v, want ×(1±%v)", f, breakSize)
 	}
 }
+
+// TestDepartureSizes: each kind that changes the truth changes it by the
+// documented amount, on the affected channel only.
+func TestDepartureSizes(t *testing.T) {
+	b := noiselessBase(t)
+	tests := []struct {
+		kind Kind
+		diff func(truth, drawn model.ChannelParams) float64 // the documented size
+		want float64
+	}{
+		{Carryover, func(a, d model.ChannelParams) float64 { return math.Abs(a.Decay - d.Decay) }, carryoverShift},
+		{Break, func(a, d model.ChannelParams) float64 { return math.Abs(a.Beta/d.Beta - 1) }, breakSize},
+		{Drift, func(a, d model.ChannelParams) float64 { return math.Abs(a.Beta/d.Beta - 1) }, driftSize},
+	}
+	for _, tc := range tests {
+		bad, _ := twin(t, b, tc.kind)
+		k := slices.Index(b.design.Spec.ChannelNames(), bad.Channel)
+		for j, cp := range bad.Truth.Channels {
+			drawn := b.draws[0].Channels[j]
+			if j != k {
+				if cp != drawn {
+					t.Errorf("%s on %s changed channel %d", tc.kind, bad.Channel, j)
+				}
+				continue
+			}
+			if got := tc.diff(cp, drawn); math.Abs(got-tc.want) > 1e-9 {
+				t.Errorf("%s on %s: change %v, want %v", tc.kind, bad.Channel, got, tc.want)
+			}
+		}
+	}
+	// Shape: the true Hill shape moves by shapeShift (or down to 0.5).
+	bad, _ := twin(t, b, Shape)
+	k := slices.Index(b.design.Spec.ChannelNames(), bad.Channel)
+	s0, s1 := b.draws[0].Channels[k].Shape, bad.Truth.Channels[k].Shape
+	if d := math.Abs(s1 - s0); math.Abs(d-shapeShift) > 1e-9 && s1 != 0.5 {
+		t.Errorf("shape %v → %v, want a change of %v", s0, s1, shapeShift)
+	}
+}
+
+// TestSeasonIsAYearlyCycleInBeta: over three years the β multiplier of the
+// affected channel sweeps the whole cycle, so its extremes are ±seasonSize,
+// and it repeats after one period (52.18 weeks: between weeks t and t+52
+// the phase moves by 0.18/52.18 of a cycle, a change below 0.03).
+func TestSeasonIsAYearlyCycleInBeta(t *testing.T) {
+	b := noiselessBase(t)
+	bad, well := twin(t, b, Season)
+	k := slices.Index(b.design.Spec.ChannelNames(), bad.Channel)
+	cp := b.draws[0].Channels[k]
+	m := b.design.Media(make([]float64, b.design.N), k, cp)
+	r := make([]float64, b.design.N)
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for i := range r {
+		if m[i] == 0 {
+			r[i] = math.NaN()
+			continue
+		}
+		r[i] = (bad.Panel.KPI[i] - well.Panel.KPI[i]) / (cp.Beta * m[i])
+		lo, hi = min(lo, r[i]), max(hi, r[i])
+	}
+	if math.Abs(hi-seasonSize) > 0.01 || math.Abs(lo+seasonSize) > 0.01 {
+		t.Errorf("β multiplier ranges over [%v, %v], want ±%v", 1+lo, 1+hi, seasonSize)
+	}
+	for i := 0; i+52 < len(r); i++ {
+		if !math.IsNaN(r[i]) && !math.IsNaN(r[i+52]) && math.Abs(r[i]-r[i+52]) > 0.03 {
+			t.Fatalf("weeks %d and %d: multipliers %v and %v, want a yearly cycle", i, i+52, 1+r[i], 1+r[i+52])
+		}
+	}
+}
