@@ -101,6 +101,7 @@ type Outcome struct {
 	Kind         Kind     `json:"kind"`
 	Channel      string   `json:"channel,omitempty"`
 	Draw         int      `json:"draw"`
+	Seed         uint64   `json:"seed"` // of the world's decision (fit, bootstrap, validation, allocation)
 	Checks       int      `json:"checks"`
 	FailedChecks []string `json:"failed_checks"` // name/scope of each failed check
 	Oracle       Score    `json:"oracle"`        // the best plan under the truth, same constraints
@@ -183,7 +184,7 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 			return nil, ctx.Err()
 		}
 		if err != nil {
-			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Err: err.Error()}
+			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Err: err.Error()}
 		}
 		res.Worlds = append(res.Worlds, *out)
 		if s.Progress != nil {
@@ -222,7 +223,7 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	if err != nil {
 		return nil, fmt.Errorf("validation: %w", err)
 	}
-	out := &Outcome{Index: w.Index, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Checks: len(val.Evidence.Checks)}
+	out := &Outcome{Index: w.Index, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Checks: len(val.Evidence.Checks)}
 	for _, c := range val.Evidence.Checks {
 		if c.Status == validation.Fail {
 			out.FailedChecks = append(out.FailedChecks, c.Name+"/"+c.Scope)
