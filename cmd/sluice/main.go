@@ -96,6 +96,7 @@ func newApp(stdout, stderr io.Writer) *cli.App {
 			validateCommand(),
 			allocateCommand(),
 			proposeCommand(),
+			rehearseCommand(),
 			verifyCommand(),
 			reportCommand(),
 			keygenCommand(),

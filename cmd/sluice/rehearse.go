@@ -1,0 +1,189 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"os/signal"
+	"slices"
+	"strings"
+	"syscall"
+	"text/tabwriter"
+	"time"
+
+	"github.com/urfave/cli/v2"
+
+	"sluice/optimize"
+	"sluice/policies"
+	"sluice/rehearsal"
+)
+
+func rehearseCommand() *cli.Command {
+	kinds := make([]string, len(rehearsal.AllKinds))
+	for i, k := range rehearsal.AllKinds {
+		kinds[i] = string(k)
+	}
+	return &cli.Command{
+		Name:  "rehearse",
+		Usage: "run the whole decision on simulated worlds built from the data, some where the model is wrong, and score each policy by its TRUE gain",
+		Description: "Each world takes its parameters from a bootstrap draw of the fit to the data, the real spend history and\n" +
+			"moving-block resampled residuals of the real fit; a share of worlds (--misspecified) breaks one assumption:\n" +
+			strings.Join(kinds, ", ") + ". World i depends only on --seed and i.",
+		Flags: append(modelFlags(),
+			&cli.StringFlag{Name: "plan", Usage: "plan YAML: horizon, budget, per-channel bounds, groups, objective, margin"},
+			&cli.StringSliceFlag{Name: "policy", Usage: "policy to rehearse: a preset name (" + strings.Join(policies.Names(), ", ") + ") or a YAML file; repeatable (default standard)"},
+			&cli.IntFlag{Name: "worlds", Value: 200, Usage: "simulated worlds"},
+			&cli.Float64Flag{Name: "misspecified", Value: 0.5, Usage: "share of worlds that break an assumption of the model"},
+			&cli.StringFlag{Name: "kinds", Value: strings.Join(kinds, ","), Usage: "comma-separated kinds of misspecified world to draw from"},
+			&cli.IntFlag{Name: "base-draws", Value: 100, Usage: "bootstrap replicates of the data that worlds take their parameters from"},
+			&cli.IntFlag{Name: "world-draws", Value: 60, Usage: "bootstrap replicates of each world's decision"},
+			&cli.IntFlag{Name: "world-replicates", Value: 8, Usage: "recovery-check panels of each world's validation"},
+			&cli.StringFlag{Name: "out", Usage: "also write every world's outcome (kind, failed checks, each plan's true gain and verdict) to this JSON file"},
+			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
+			&cli.BoolFlag{Name: "quiet", Usage: "no progress line"},
+		),
+		Action: func(c *cli.Context) error {
+			o, err := newOpts(c)
+			if err != nil {
+				return err
+			}
+			planPath := o.String("plan")
+			if planPath == "" {
+				return withHint(errors.New("rehearse needs --plan"), "pass --plan plan.yaml (see README, \"The plan file\")")
+			}
+			plan, err := optimize.LoadPlan(planPath)
+			if err != nil {
+				return err
+			}
+			names := c.StringSlice("policy")
+			if len(names) == 0 && o.fromConfig("policy") {
+				names = o.List("policy")
+			}
+			if len(names) == 0 {
+				names = []string{"standard"}
+			}
+			var pols []*policies.Policy
+			for _, n := range names {
+				p, err := policies.Resolve(n)
+				if err != nil {
+					return err
+				}
+				pols = append(pols, p)
+			}
+			var ks []rehearsal.Kind
+			for _, k := range o.List("kinds") {
+				if !slices.Contains(kinds, k) {
+					return withHint(fmt.Errorf("--kinds: %q is not a kind of world", k), "kinds are %s", strings.Join(kinds, ", "))
+				}
+				ks = append(ks, rehearsal.Kind(k))
+			}
+			if len(ks) == 0 && o.Float("misspecified") > 0 {
+				return withHint(errors.New("--kinds is empty"), "name at least one kind, or pass --misspecified 0")
+			}
+			if o.Int("worlds") < 1 {
+				return fmt.Errorf("--worlds %d must be at least 1", o.Int("worlds"))
+			}
+			in, err := loadModelInput(o)
+			if err != nil {
+				return err
+			}
+			ctx, stop := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)
+			defer stop()
+			set := rehearsal.Settings{Seed: in.Seed, Worlds: o.Int("worlds"), Misspecified: o.Float("misspecified"), Kinds: ks,
+				BaseDraws: o.Int("base-draws"), WorldDraws: o.Int("world-draws"), Replicates: o.Int("world-replicates"), Workers: in.Workers}
+			start := time.Now()
+			if !o.Bool("quiet") {
+				set.Progress = func(done, total int) {
+					fmt.Fprintf(c.App.ErrWriter, "\rworld %d of %d (%.1f s per world)", done, total, time.Since(start).Seconds()/float64(done))
+					if done == total {
+						fmt.Fprintln(c.App.ErrWriter)
+					}
+				}
+			}
+			r, err := rehearsal.Run(ctx, rehearsal.Problem{Panel: in.Panel, Design: in.Design, Plan: plan, Policies: pols}, set)
+			if err != nil {
+				return err
+			}
+			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), Misspecified: set.Misspecified,
+				Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw, FailedShare: r.FailedShare, Errors: r.Errors}
+			if path := o.String("out"); path != "" {
+				if err := writeJSON(path, struct {
+					rehearseOutput
+					Outcomes []rehearsal.Outcome `json:"outcomes"`
+				}{out, r.Worlds}); err != nil {
+					return err
+				}
+			}
+			if o.Bool("json") {
+				return printJSON(c.App.Writer, out)
+			}
+			printRehearsal(c.App.Writer, out, time.Since(start))
+			return nil
+		},
+	}
+}
+
+// rehearseOutput is `sluice rehearse --json`.
+type rehearseOutput struct {
+	Tool         string                     `json:"tool"`
+	Version      string                     `json:"version"`
+	Seed         uint64                     `json:"seed"`
+	Worlds       int                        `json:"worlds"`
+	Misspecified float64                    `json:"misspecified"`
+	Kinds        []rehearsal.Kind           `json:"kinds"`
+	Sizes        rehearsal.Sizes            `json:"sizes"`
+	Policies     []rehearsal.Summary        `json:"policies"`
+	Raw          rehearsal.Summary          `json:"raw"`
+	FailedShare  map[rehearsal.Kind]float64 `json:"failed_check_share"`
+	Errors       int                        `json:"worlds_failed"`
+}
+
+func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
+	fmt.Fprintf(w, "rehearsal on %d worlds (seed %d, %.0f%% misspecified); true gain over the next %d weeks against the status quo\n",
+		r.Worlds, r.Seed, 100*r.Misspecified, r.Sizes.Horizon)
+	fmt.Fprintf(w, "sizes: %d bootstrap draws of the data for the worlds; per world %d draws and %d recovery panels; %.1f s per world\n\n",
+		r.Sizes.BaseDraws, r.Sizes.WorldDraws, r.Sizes.Replicates, took.Seconds()/float64(max(r.Worlds, 1)))
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintln(tw, "decided by\tworlds\tP(loss)\tmean gain\t5% gain\tof oracle\trefused\t")
+	row := func(name string, s rehearsal.Summary) {
+		fmt.Fprintf(tw, "%s\t%d\t%.0f%%\t%s\t%s\t%.0f%%\t%.0f%%\t\n", name, s.Worlds, 100*s.PLoss, signedMoney(s.MeanGain),
+			signedMoney(s.P05Gain), 100*s.OracleShare, 100*s.Refused)
+	}
+	row("raw proposal", r.Raw)
+	for _, p := range r.Policies {
+		row("policy "+p.Name, p)
+	}
+	tw.Flush()
+	fmt.Fprintln(w, "\nby kind of world: P(loss) and share of oracle gain")
+	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprint(tw, "kind\tworlds\tfailed checks\traw\t")
+	for _, p := range r.Policies {
+		fmt.Fprintf(tw, "%s\t", p.Name)
+	}
+	fmt.Fprintln(tw)
+	kinds := append([]rehearsal.Kind{rehearsal.WellSpecified}, rehearsal.AllKinds...)
+	for _, k := range kinds {
+		raw := r.Raw.ByWorldKind[k]
+		if raw == nil {
+			continue
+		}
+		fmt.Fprintf(tw, "%s\t%d\t%.0f%%\t%s\t", k, raw.Worlds, 100*r.FailedShare[k], lossShare(raw))
+		for _, p := range r.Policies {
+			fmt.Fprintf(tw, "%s\t", lossShare(p.ByWorldKind[k]))
+		}
+		fmt.Fprintln(tw)
+	}
+	tw.Flush()
+	if r.Errors > 0 {
+		fmt.Fprintf(w, "\n%d worlds could not be decided (fit, bootstrap or allocation failed) and are left out\n", r.Errors)
+	}
+	fmt.Fprintln(w, "\nthe worlds are simulated from this model's family and a few named departures from it; a rehearsal shows how the policy behaves there, not in the real market")
+}
+
+func lossShare(s *rehearsal.Summary) string {
+	if s == nil {
+		return "-"
+	}
+	return fmt.Sprintf("%.0f%% / %.0f%%", 100*s.PLoss, 100*s.OracleShare)
+}

@@ -1,0 +1,376 @@
+// Package rehearsal asks how often a policy would have lost money in worlds
+// where the model is wrong. Each world starts from the fit to the user's
+// data (parameters from a bootstrap draw, the real spend history, residuals
+// resampled from the real fit); a share of worlds breaks one of the model's
+// assumptions. On every world the whole decision process runs (fit,
+// bootstrap, validation, allocation, gate), and each plan is scored by its
+// TRUE gain over the horizon, which only a rehearsal can know.
+package rehearsal
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"slices"
+
+	"sluice/gate"
+	"sluice/internal/sample"
+	"sluice/model"
+	"sluice/optimize"
+	"sluice/policies"
+	"sluice/uncertainty"
+	"sluice/validation"
+)
+
+// Problem is what to rehearse: the user's data and model, the plan and the
+// policies to compare.
+type Problem struct {
+	Panel    *model.Panel
+	Design   *model.Design // built from Panel with the usual spec
+	Plan     *optimize.Plan
+	Policies []*policies.Policy
+}
+
+// Settings say how many worlds and how large each world's decision is. The
+// zero value is usable: every zero field means the default it documents.
+type Settings struct {
+	Seed   uint64 // world i is fully determined by (Seed, i)
+	Worlds int    // 0 means 200
+	// Misspecified is the share of worlds that break an assumption; zero
+	// means none (the command's default is 0.5).
+	Misspecified float64
+	// Kinds are the misspecified kinds drawn from, uniformly; nil means AllKinds.
+	Kinds []Kind
+	// BaseDraws is the size of the bootstrap of the user's data that the
+	// worlds' parameters come from; 0 means 100.
+	BaseDraws int
+	// WorldDraws is the bootstrap size of each world's decision; 0 means 60.
+	WorldDraws int
+	// Replicates is the recovery check's panel count in each world's
+	// validation; 0 means 8.
+	Replicates int
+	Workers    int // parallel refits; 0 means 1
+	// Progress, if not nil, is told after each world.
+	Progress func(done, total int)
+
+	truthFromFit bool // tests: every world's truth is the user's point fit
+}
+
+// Sizes are the sizes a rehearsal used, for its output.
+type Sizes struct {
+	BaseDraws  int `json:"base_draws"`
+	WorldDraws int `json:"world_draws"`
+	Replicates int `json:"validation_replicates"`
+	Horizon    int `json:"horizon_weeks"`
+}
+
+func (s Settings) withDefaults() Settings {
+	def := func(v *int, d int) {
+		if *v <= 0 {
+			*v = d
+		}
+	}
+	def(&s.Worlds, 200)
+	def(&s.BaseDraws, 100)
+	def(&s.WorldDraws, 60)
+	def(&s.Replicates, 8)
+	def(&s.Workers, 1)
+	if s.Kinds == nil {
+		s.Kinds = AllKinds
+	}
+	return s
+}
+
+// Score is one plan's outcome in one world.
+type Score struct {
+	Plan     []float64 `json:"plan"`      // weekly spend per channel
+	TrueGain float64   `json:"true_gain"` // over the horizon, against the status quo, under the truth
+	Lost     bool      `json:"lost"`      // TrueGain < 0
+	// OracleShare is TrueGain over the oracle's true gain (0 when the
+	// oracle gains nothing).
+	OracleShare float64      `json:"oracle_share"`
+	Verdict     gate.Verdict `json:"verdict,omitempty"`
+	// Acted names the checks (name/scope) whose policy action the gate
+	// applied: refuse, hold or cap (a policy's plans only).
+	Acted []string `json:"acted,omitempty"`
+}
+
+// Outcome is one world's result.
+type Outcome struct {
+	Index        int      `json:"index"`
+	Kind         Kind     `json:"kind"`
+	Channel      string   `json:"channel,omitempty"`
+	Draw         int      `json:"draw"`
+	Seed         uint64   `json:"seed"` // of the world's decision (fit, bootstrap, validation, allocation)
+	Checks       int      `json:"checks"`
+	FailedChecks []string `json:"failed_checks"` // name/scope of each failed check
+	Oracle       Score    `json:"oracle"`        // the best plan under the truth, same constraints
+	Raw          Score    `json:"raw"`           // the allocator's proposal
+	Policies     []Score  `json:"policies"`      // each policy's approved plan, in Problem order
+	Err          string   `json:"error,omitempty"`
+}
+
+// Summary sums up one way of deciding over the worlds.
+type Summary struct {
+	Name     string  `json:"name"`
+	Worlds   int     `json:"worlds"`
+	PLoss    float64 `json:"p_loss"`    // share of worlds where the true gain < 0
+	MeanGain float64 `json:"mean_gain"` // mean true gain
+	P05Gain  float64 `json:"p05_gain"`  // 5th percentile of the true gain (sample.Quantiles)
+	// OracleShare is Σ true gain / Σ oracle gain: the share of what was
+	// there to gain that was captured (a ratio of sums, so worlds with a
+	// tiny oracle gain do not dominate).
+	OracleShare float64           `json:"oracle_share"`
+	Refused     float64           `json:"refused"` // share of worlds refused (0 for raw)
+	ByWorldKind map[Kind]*Summary `json:"by_world_kind,omitempty"`
+	gains       []float64
+	oracle      []float64
+	refusals    int
+}
+
+// Result is a rehearsal.
+type Result struct {
+	Seed     uint64    `json:"seed"`
+	Worlds   []Outcome `json:"-"`
+	Policies []Summary `json:"policies"`
+	Raw      Summary   `json:"raw"`
+	Sizes    Sizes     `json:"sizes"`
+	// FailedShare is the mean share of failed checks per world kind.
+	FailedShare map[Kind]float64 `json:"failed_check_share"`
+	Errors      int              `json:"errors"` // worlds whose decision could not run, left out
+}
+
+// Run rehearses p. Worlds run one after another; each uses Workers.
+func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
+	if p.Panel == nil || p.Design == nil || p.Plan == nil {
+		panic("rehearsal: Run needs a panel, its design and a plan")
+	}
+	if len(p.Policies) == 0 {
+		return nil, errors.New("rehearsal: no policy to rehearse")
+	}
+	if !(s.Misspecified >= 0 && s.Misspecified <= 1) {
+		return nil, fmt.Errorf("rehearsal: misspecified share %v must be in [0, 1]", s.Misspecified)
+	}
+	s = s.withDefaults()
+	h := p.Plan.HorizonWeeks
+	bs := &uncertainty.Bootstrap{Design: p.Design, Y: p.Panel.KPI, Draws: s.BaseDraws, Seed: s.Seed, Workers: s.Workers}
+	d, err := bs.Run(ctx)
+	if err != nil {
+		return nil, fmt.Errorf("rehearsal: bootstrap of the data: %w", err)
+	}
+	full := d.Header.FullFit.Params
+	resid := make([]float64, p.Design.N)
+	for t, v := range p.Design.Predict(full) {
+		resid[t] = p.Panel.KPI[t] - v
+	}
+	b := &base{panel: p.Panel, design: p.Design, draws: d.Params(), resid: resid, block: d.Header.BlockLength, horiz: h}
+	if s.truthFromFit {
+		b.draws = []model.Params{full}
+	}
+	if len(b.draws) == 0 {
+		return nil, errors.New("rehearsal: every refit of the data's bootstrap failed")
+	}
+	res := &Result{Seed: s.Seed, Sizes: Sizes{BaseDraws: s.BaseDraws, WorldDraws: s.WorldDraws, Replicates: s.Replicates, Horizon: h}}
+	for i := range s.Worlds {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		w := b.world(s.Seed, i, s.Misspecified, s.Kinds)
+		if s.truthFromFit {
+			w.Kind, w.Channel = WellSpecified, ""
+		}
+		out, err := decideWorld(ctx, p, s, w)
+		if err != nil && ctx.Err() != nil {
+			return nil, ctx.Err()
+		}
+		if err != nil {
+			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Err: err.Error()}
+		}
+		res.Worlds = append(res.Worlds, *out)
+		if s.Progress != nil {
+			s.Progress(i+1, s.Worlds)
+		}
+	}
+	res.summarize(p)
+	return res, nil
+}
+
+// decideWorld runs the decision process on w's panel and scores each plan
+// under w's truth.
+func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome, error) {
+	dw, err := model.NewDesign(w.Panel, p.Design.Spec)
+	if err != nil {
+		return nil, err
+	}
+	y := w.Panel.KPI
+	fit, err := dw.Fit(y, model.FitSettings{Seed: w.Seed, Workers: s.Workers})
+	if err != nil {
+		return nil, fmt.Errorf("fit: %w", err)
+	}
+	bs := &uncertainty.Bootstrap{Design: dw, Y: y, Draws: s.WorldDraws, Seed: w.Seed, Workers: s.Workers, Full: fit}
+	bd, err := bs.Run(ctx)
+	if err != nil {
+		return nil, fmt.Errorf("bootstrap: %w", err)
+	}
+	draws := bd.Params()
+	if len(draws) == 0 {
+		return nil, errors.New("bootstrap: every refit failed")
+	}
+	val, err := validation.Run(validation.Problem{Panel: w.Panel, Design: dw, Fit: fit,
+		Draws: &validation.Draws{Params: draws, Failed: bd.Failed()}},
+		validation.DefaultThresholds(), validation.Settings{Seed: w.Seed, Workers: s.Workers,
+			Replicates: s.Replicates, ValuePerKPI: p.Plan.ValuePerKPI})
+	if err != nil {
+		return nil, fmt.Errorf("validation: %w", err)
+	}
+	out := &Outcome{Index: w.Index, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Checks: len(val.Evidence.Checks)}
+	for _, c := range val.Evidence.Checks {
+		if c.Status == validation.Fail {
+			out.FailedChecks = append(out.FailedChecks, c.Name+"/"+c.Scope)
+		}
+	}
+
+	names := dw.Spec.ChannelNames()
+	h := p.Plan.HorizonWeeks
+	econ := optimize.Economics{Horizon: h, Margin: p.Plan.Margin, ValuePerKPI: p.Plan.ValuePerKPI}
+	solve := func(resp, point optimize.Response) (*optimize.Result, []float64, error) {
+		prob, err := p.Plan.Resolve(names, dw.CurrentSpend())
+		if err != nil {
+			return nil, nil, err
+		}
+		prob.Response, prob.Point = resp, point
+		r, err := optimize.Solve(*prob, &optimize.Settings{Seed: w.Seed, Workers: s.Workers})
+		if err != nil {
+			return nil, nil, err
+		}
+		cur := make([]float64, len(prob.Constraints.Channels))
+		for k, l := range prob.Constraints.Channels {
+			cur[k] = l.Current
+		}
+		return r, cur, nil
+	}
+	raw, current, err := solve(dw.NewCurves(draws, h), dw.NewCurves([]model.Params{fit.Params}, h))
+	if err != nil {
+		return nil, fmt.Errorf("allocation: %w", err)
+	}
+	truth := dw.NewCurves([]model.Params{w.Truth}, h)
+	oracle, _, err := solve(truth, nil)
+	if err != nil {
+		return nil, fmt.Errorf("oracle allocation: %w", err)
+	}
+	og := econ.Gains(nil, truth, oracle.Proposed, current)[0]
+	score := func(plan []float64) Score {
+		g := econ.Gains(nil, truth, plan, current)[0]
+		sc := Score{Plan: slices.Clone(plan), TrueGain: g, Lost: g < 0}
+		if og > 0 {
+			sc.OracleShare = g / og
+		}
+		return sc
+	}
+	out.Oracle = score(oracle.Proposed)
+	out.Raw = score(raw.Proposed)
+
+	low, high := dw.Support()
+	support := make([]gate.SupportRange, len(low))
+	for k := range low {
+		support[k] = gate.SupportRange{Low: low[k], High: high[k]}
+	}
+	curves := dw.NewCurves(draws, h)
+	for _, pol := range p.Policies {
+		gd, err := gate.Run(gate.Review{Channels: names, Current: current, Proposed: raw.Proposed,
+			Response: curves, Economics: econ, Support: support, Evidence: val.Evidence, Policy: pol},
+			gate.Settings{Workers: s.Workers})
+		if err != nil {
+			return nil, fmt.Errorf("gate (%s): %w", pol.Name, err)
+		}
+		sc := score(gd.ApprovedPlan)
+		sc.Verdict = gd.Verdict
+		for _, cu := range gd.Checks {
+			if cu.WaivedBy == "" && (cu.Action == policies.Refuse || cu.Action == policies.Hold || cu.Action == policies.Cap) {
+				sc.Acted = append(sc.Acted, cu.Name+"/"+cu.Scope)
+			}
+		}
+		out.Policies = append(out.Policies, sc)
+	}
+	return out, nil
+}
+
+func (r *Result) summarize(p Problem) {
+	r.Raw = Summary{Name: "raw"}
+	r.Policies = make([]Summary, len(p.Policies))
+	for j, pol := range p.Policies {
+		r.Policies[j] = Summary{Name: pol.Name}
+	}
+	checks := map[Kind][2]float64{} // Σ failed share, worlds
+	for _, o := range r.Worlds {
+		if o.Err != "" {
+			r.Errors++
+			continue
+		}
+		r.Raw.add(o.Kind, o.Raw, o.Oracle.TrueGain)
+		for j := range r.Policies {
+			r.Policies[j].add(o.Kind, o.Policies[j], o.Oracle.TrueGain)
+		}
+		c := checks[o.Kind]
+		if o.Checks > 0 {
+			c[0] += float64(len(o.FailedChecks)) / float64(o.Checks)
+		}
+		c[1]++
+		checks[o.Kind] = c
+	}
+	r.Raw.finish()
+	for j := range r.Policies {
+		r.Policies[j].finish()
+	}
+	r.FailedShare = map[Kind]float64{}
+	for k, c := range checks {
+		r.FailedShare[k] = c[0] / c[1]
+	}
+}
+
+func (s *Summary) add(k Kind, sc Score, oracle float64) {
+	s.gains = append(s.gains, sc.TrueGain)
+	s.oracle = append(s.oracle, oracle)
+	if sc.Verdict == gate.Refuse {
+		s.refusals++
+	}
+	if k == "" {
+		return
+	}
+	if s.ByWorldKind == nil {
+		s.ByWorldKind = map[Kind]*Summary{}
+	}
+	sub := s.ByWorldKind[k]
+	if sub == nil {
+		sub = &Summary{Name: string(k)}
+		s.ByWorldKind[k] = sub
+	}
+	sub.add("", sc, oracle)
+}
+
+func (s *Summary) finish() {
+	n := len(s.gains)
+	s.Worlds = n
+	if n == 0 {
+		return
+	}
+	var lost int
+	var sum, osum float64
+	for i, g := range s.gains {
+		if g < 0 {
+			lost++
+		}
+		sum += g
+		osum += s.oracle[i]
+	}
+	s.PLoss = float64(lost) / float64(n)
+	s.MeanGain = sum / float64(n)
+	s.P05Gain = sample.Quantiles(s.gains, 0.05)[0]
+	if osum > 0 {
+		s.OracleShare = sum / osum
+	}
+	s.Refused = float64(s.refusals) / float64(n)
+	for _, sub := range s.ByWorldKind {
+		sub.finish()
+	}
+}

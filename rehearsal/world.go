@@ -1,0 +1,202 @@
+package rehearsal
+
+import (
+	"math"
+	"math/rand/v2"
+
+	"sluice/model"
+	"sluice/uncertainty"
+)
+
+// Kind names how a world breaks the model's assumptions.
+type Kind string
+
+// The kinds of world. Each misspecified kind affects one channel (and the
+// break also the base); the sizes are rules of thumb (common practice, no
+// source) chosen to be large enough to matter for a quarter's plan.
+const (
+	WellSpecified Kind = "none"       // the model's own form, parameters from a bootstrap draw
+	Drift         Kind = "drift"      // β trends linearly to ±30% of its start by the last week
+	Season        Kind = "season"     // β varies ±40% over the year with a random phase
+	Carryover     Kind = "carryover"  // true decay differs by 0.35 from the drawn one
+	Shape         Kind = "shape"      // true Hill shape differs by about 1.5 (Hill channels only)
+	Confounder    Kind = "confounder" // an unobserved driver correlated 0.7 with the channel's spend adds to the KPI
+	Break         Kind = "break"      // β jumps ×0.5 or ×1.5 and the base shifts ±5% 8–20 weeks before the end
+)
+
+// AllKinds lists the misspecified kinds in a fixed order.
+var AllKinds = []Kind{Drift, Season, Carryover, Shape, Confounder, Break}
+
+const (
+	driftSize      = 0.30
+	seasonSize     = 0.40
+	carryoverShift = 0.35
+	shapeShift     = 1.5
+	confounderCorr = 0.7
+	confounderSize = 0.5 // SD of the driver as a share of the channel's mean contribution
+	breakSize      = 0.5
+	breakBase      = 0.05 // base shift as a share of the mean KPI
+)
+
+// World is one rehearsal world: the truth and the panel drawn from it.
+type World struct {
+	Index   int
+	Kind    Kind
+	Channel string // the affected channel; "" for WellSpecified
+	Draw    int    // the base bootstrap draw its parameters come from
+	Seed    uint64 // seeds the decision process run on the world
+	// Truth is the true response a plan for the horizon meets: the
+	// end-of-history truth (after a drift or break), and for a season the
+	// channel's mean effectiveness over the horizon's own weeks. A
+	// confounder is not caused by spend, so it is not in the truth.
+	Truth model.Params
+	Panel *model.Panel
+}
+
+// base is what every world starts from: the user's panel and design, the
+// bootstrap draws of its fit and the fit's residuals.
+type base struct {
+	panel  *model.Panel
+	design *model.Design
+	draws  []model.Params
+	resid  []float64
+	block  float64
+	horiz  int
+}
+
+// world builds world i from (seed, i) alone.
+func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *World {
+	rng := uncertainty.Stream(seed, i)
+	w := &World{Index: i, Kind: WellSpecified, Seed: rng.Uint64()}
+	// The noise has a stream of its own, drawn before the kind, so that a
+	// world and its misspecified twin (same seed and index, another share)
+	// differ only by the departure: comparisons between them are paired.
+	noiseRNG := rand.New(rand.NewPCG(rng.Uint64(), 0x6e6f697365))
+	w.Draw = rng.IntN(len(b.draws))
+	p := b.draws[w.Draw].Clone()
+	d := b.design
+	n, nk := d.N, len(p.Channels)
+	k := rng.IntN(nk)
+	if rng.Float64() < misspecified && len(kinds) > 0 {
+		w.Kind = kinds[rng.IntN(len(kinds))]
+		if w.Kind == Shape && d.Spec.Channels[k].Saturation != model.SaturationHill {
+			w.Kind = Carryover // no Hill shape to change on this channel
+		}
+		w.Channel = d.Spec.Channels[k].Name
+	}
+	sign := 1.0
+	if rng.IntN(2) == 0 {
+		sign = -1
+	}
+
+	// mult[t] scales channel k's β in week t; end is its value for the horizon.
+	mult := make([]float64, n)
+	for t := range mult {
+		mult[t] = 1
+	}
+	end := 1.0
+	extra := make([]float64, n) // added to the KPI, not caused by spend
+	cp := &p.Channels[k]
+	switch w.Kind {
+	case Drift:
+		for t := range mult {
+			mult[t] = 1 + sign*driftSize*float64(t)/float64(max(n-1, 1))
+		}
+		end = mult[n-1]
+	case Season:
+		phase := 2 * math.Pi * rng.Float64()
+		at := func(t int) float64 { return 1 + seasonSize*math.Sin(2*math.Pi*float64(t)/d.Spec.Period+phase) }
+		for t := range mult {
+			mult[t] = at(t)
+		}
+		// The horizon meets the season of its own weeks: their mean.
+		end = 0
+		for t := n; t < n+b.horiz; t++ {
+			end += at(t) / float64(b.horiz)
+		}
+	case Carryover:
+		if cp.Decay < 0.45 {
+			cp.Decay += carryoverShift
+		} else {
+			cp.Decay -= carryoverShift
+		}
+	case Shape:
+		if cp.Shape < 1.75 {
+			cp.Shape += shapeShift
+		} else {
+			cp.Shape = max(0.5, cp.Shape-shapeShift)
+		}
+	case Confounder:
+		x := d.Spend[k]
+		mx, sx := meanSD(x)
+		m := d.Media(make([]float64, n), k, *cp)
+		mm, _ := meanSD(m)
+		amp := confounderSize * cp.Beta * mm
+		u := ar1(rng, n, 0.5)
+		for t := range extra {
+			zx := 0.0
+			if sx > 0 {
+				zx = (x[t] - mx) / sx
+			}
+			extra[t] = amp * (confounderCorr*zx + math.Sqrt(1-confounderCorr*confounderCorr)*u[t])
+		}
+	case Break:
+		at := n - 8 - rng.IntN(13)
+		f := 1 + sign*breakSize
+		my, _ := meanSD(b.panel.KPI)
+		shift := breakBase * my
+		if rng.IntN(2) == 0 {
+			shift = -shift
+		}
+		for t := at; t < n; t++ {
+			mult[t] = f
+			extra[t] = shift
+		}
+		end = f
+	}
+
+	// The truth KPI: the model's form with channel k's β scaled week by
+	// week, the extra terms and resampled residuals of the real fit.
+	y := d.Predict(withBeta(p, k, 0))
+	m := d.Media(make([]float64, n), k, *cp)
+	noise := uncertainty.Resampler{Method: uncertainty.MovingBlock, BlockLength: b.block}.
+		Residuals(make([]float64, n), b.resid, noiseRNG)
+	for t := range y {
+		y[t] = math.Max(0, y[t]+cp.Beta*mult[t]*m[t]+extra[t]+noise[t])
+	}
+	w.Truth = withBeta(p, k, cp.Beta*end)
+	panel := *b.panel
+	panel.Source = b.panel.Source + " (rehearsal world)"
+	panel.KPI = y
+	w.Panel = &panel
+	return w
+}
+
+// withBeta returns a copy of p with channel k's β set to beta.
+func withBeta(p model.Params, k int, beta float64) model.Params {
+	q := p.Clone()
+	q.Channels[k].Beta = beta
+	return q
+}
+
+func meanSD(x []float64) (mean, sd float64) {
+	for _, v := range x {
+		mean += v
+	}
+	mean /= float64(len(x))
+	for _, v := range x {
+		sd += (v - mean) * (v - mean)
+	}
+	return mean, math.Sqrt(sd / float64(max(len(x)-1, 1)))
+}
+
+// ar1 returns a stationary AR(1) series with unit variance.
+func ar1(rng *rand.Rand, n int, phi float64) []float64 {
+	z := make([]float64, n)
+	s := math.Sqrt(1 - phi*phi)
+	z[0] = rng.NormFloat64()
+	for i := 1; i < n; i++ {
+		z[i] = phi*z[i-1] + s*rng.NormFloat64()
+	}
+	return z
+}
