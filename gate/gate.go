@@ -231,6 +231,15 @@ func Run(r Review, s Settings) (*Decision, error) {
 				perWeek(m), perWeek(minMove))
 		default:
 			d.Verdict = Downsize
+			var heldBack []string
+			for k, cc := range caps {
+				if len(cc.reasons) > 0 {
+					heldBack = append(heldBack, r.Channels[k])
+				}
+			}
+			if len(heldBack) > 0 {
+				d.Reasons = append(d.Reasons, fmt.Sprintf("the moves of %s are held back by the support guard or the evidence; each move says why", joinAnd(heldBack)))
+			}
 		}
 	}
 	if refused != "" {
