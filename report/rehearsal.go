@@ -142,7 +142,7 @@ func newRehearsalView(r *rehearsal.Result) (*rehearsalView, error) {
 		s := d.sum
 		refused := pct(s.Refused)
 		if d.sum == &r.Raw {
-			refused = "never (no gate)"
+			refused = "no gate"
 		}
 		v.Summary = append(v.Summary, summaryRow{Name: d.name, Worlds: strconv.Itoa(s.Worlds), PLoss: pct(s.PLoss),
 			Mean: signedMoney(s.MeanGain), P05: signedMoney(s.P05Gain), Oracle: pct(s.OracleShare), Refused: refused})

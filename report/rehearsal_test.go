@@ -98,7 +98,7 @@ func TestRehearsalStructure(t *testing.T) {
 		t.Fatalf("summary table has %d rows, want header + 3", len(rows))
 	}
 	wantRows := [][]string{
-		{"raw proposal", "4", "50%", "-1,250", "-54,000", "32.5%", "never (no gate)"},
+		{"raw proposal", "4", "50%", "-1,250", "-54,000", "32.5%", "no gate"},
 		{"policy standard", "4", "50%", "+9,500", "-11,000", "19%", "25%"},
 		{"policy cautious <b>", "4", "25%", "+1,750", "-2,600", "3.5%", "50%"},
 	}
