@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"cmp"
 	"errors"
 	"fmt"
 	"html/template"
@@ -209,7 +210,8 @@ func tradeoffWords(ds []decider) string {
 	for i, d := range ds {
 		w[i] = fmt.Sprintf("%s loses in %s of worlds and captures %s", d.name, pct(d.sum.PLoss), pct(d.sum.OracleShare))
 	}
-	return strings.Join(w, "; ") + "."
+	s := strings.Join(w, "; ") + "."
+	return strings.ToUpper(s[:1]) + s[1:] // decider names start with ASCII "raw"
 }
 
 // deciderGlyphs: the raw proposal keeps the brief's proposal marker (an
@@ -269,15 +271,25 @@ func tradeoffChart(ds []decider) ([]byte, error) {
 	if len(pts) == 0 {
 		return nil, nil
 	}
-	labels, err := plotter.NewLabels(plotter.XYLabels{XYs: pts, Labels: names})
-	if err != nil {
-		return nil, fmt.Errorf("report: trade-off: %w", err)
+	// Neighbours in x take turns above and below their marker, so that
+	// close markers' labels do not run into each other.
+	order := make([]int, len(pts))
+	for i := range order {
+		order[i] = i
 	}
-	for i := range labels.TextStyle {
-		labels.TextStyle[i].Font = font.From(sans, legendSize)
+	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(pts[a].X, pts[b].X) })
+	for rank, i := range order {
+		l, err := plotter.NewLabels(plotter.XYLabels{XYs: pts[i : i+1], Labels: names[i : i+1]})
+		if err != nil {
+			return nil, fmt.Errorf("report: trade-off: %w", err)
+		}
+		l.TextStyle[0].Font = font.From(sans, legendSize)
+		l.Offset = vg.Point{X: vg.Points(7), Y: vg.Points(4)}
+		if rank%2 == 1 {
+			l.Offset.Y = -vg.Points(12)
+		}
+		p.Add(l)
 	}
-	labels.Offset = vg.Point{X: vg.Points(7), Y: vg.Points(3)}
-	p.Add(labels)
 	// Room for the labels right of the markers and above the highest.
 	span := p.X.Max - p.X.Min
 	p.X.Max += 0.35 * span
