@@ -65,11 +65,11 @@ func TestContrastFormula(t *testing.T) {
 	}
 }
 
-// cssVars reads the custom properties of the brief's style sheet.
+// cssVars reads the custom properties of the shared style sheet.
 func cssVars(t *testing.T) map[string]color.NRGBA {
 	re := regexp.MustCompile(`--([a-z]+):\s*(#[0-9a-fA-F]{6})`)
 	m := map[string]color.NRGBA{}
-	for _, s := range re.FindAllStringSubmatch(briefSource, -1) {
+	for _, s := range re.FindAllStringSubmatch(styleSource, -1) {
 		m[s[1]] = hexColour(t, s[2])
 	}
 	for _, k := range []string{"ink", "muted", "paper", "tint", "fail", "warn", "pass", "blue"} {
@@ -87,7 +87,7 @@ func TestTextContrast(t *testing.T) {
 	backgrounds := map[string]color.NRGBA{"paper": v["paper"], "tint": v["tint"]}
 	// The tinted boxes: caution, status labels, the failed row.
 	for _, s := range []string{"#fff8e1", "#fbe3d6", "#fdf1d3", "#ddf2ec", "#fdf3ee"} {
-		if !strings.Contains(briefSource, s) {
+		if !strings.Contains(styleSource, s) {
 			t.Fatalf("style sheet no longer uses %s; update the test", s)
 		}
 		backgrounds[s] = hexColour(t, s)

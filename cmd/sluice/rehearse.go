@@ -6,6 +6,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"path/filepath"
 	"slices"
 	"strings"
 	"syscall"
@@ -17,6 +18,7 @@ import (
 	"sluice/optimize"
 	"sluice/policies"
 	"sluice/rehearsal"
+	"sluice/report"
 )
 
 func rehearseCommand() *cli.Command {
@@ -39,7 +41,7 @@ func rehearseCommand() *cli.Command {
 			&cli.IntFlag{Name: "base-draws", Value: 100, Usage: "bootstrap replicates of the data that worlds take their parameters from"},
 			&cli.IntFlag{Name: "world-draws", Value: 60, Usage: "bootstrap replicates of each world's decision"},
 			&cli.IntFlag{Name: "world-replicates", Value: 8, Usage: "recovery-check panels of each world's validation"},
-			&cli.StringFlag{Name: "out", Usage: "also write every world's outcome (kind, failed checks, each plan's true gain and verdict) to this JSON file"},
+			&cli.StringFlag{Name: "out", Usage: "also write, into this directory, rehearsal.json (every world's outcome: kind, failed checks, each plan's true gain and verdict) and rehearsal.html (the page for reading)"},
 			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress line"},
 		),
@@ -107,14 +109,33 @@ func rehearseCommand() *cli.Command {
 			}
 			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), Misspecified: set.Misspecified,
 				Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw, FailedShare: r.FailedShare, Errors: r.Errors}
-			if path := o.String("out"); path != "" {
-				if err := writeJSON(path, struct {
+			var wrote []string
+			if dir := o.String("out"); dir != "" {
+				if err := os.MkdirAll(dir, 0o755); err != nil {
+					return fmt.Errorf("--out: %w", err)
+				}
+				jsonPath, htmlPath := filepath.Join(dir, "rehearsal.json"), filepath.Join(dir, "rehearsal.html")
+				if err := writeJSON(jsonPath, struct {
 					rehearseOutput
 					Outcomes []rehearsal.Outcome `json:"outcomes"`
 				}{out, r.Worlds}); err != nil {
 					return err
 				}
+				if err := report.WriteRehearsal(htmlPath, r); err != nil {
+					return err
+				}
+				wrote = []string{jsonPath, htmlPath}
 			}
+			// With --json, stdout is the JSON alone; the paths go to stderr.
+			pathsTo := c.App.Writer
+			if o.Bool("json") {
+				pathsTo = c.App.ErrWriter
+			}
+			defer func() {
+				for _, p := range wrote {
+					fmt.Fprintln(pathsTo, "wrote", p)
+				}
+			}()
 			if o.Bool("json") {
 				return printJSON(c.App.Writer, out)
 			}
