@@ -50,6 +50,9 @@ type Settings struct {
 	// validation; 0 means 8.
 	Replicates int
 	Workers    int // parallel refits; 0 means 1
+	// Shard, if set, runs only its worlds (i % N == K-1); Merge combines
+	// the shards into exactly the result of one run.
+	Shard uncertainty.Shard
 	// Progress, if not nil, is told after each world.
 	Progress func(done, total int)
 
@@ -175,6 +178,9 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 		if err := ctx.Err(); err != nil {
 			return nil, err
 		}
+		if !s.Shard.Has(i) {
+			continue
+		}
 		w := b.world(s.Seed, i, s.Misspecified, s.Kinds)
 		if s.truthFromFit {
 			w.Kind, w.Channel = WellSpecified, ""
@@ -191,7 +197,47 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 			s.Progress(i+1, s.Worlds)
 		}
 	}
-	res.summarize(p)
+	res.summarize(policyNames(p))
+	return res, nil
+}
+
+func policyNames(p Problem) []string {
+	names := make([]string, len(p.Policies))
+	for j, pol := range p.Policies {
+		names[j] = pol.Name
+	}
+	return names
+}
+
+// Merge combines the outcomes of shards of one rehearsal (same seed,
+// sizes and policies, run with Shard k/n for every k) into the result of
+// the unsharded run: every world once, in index order, summaries
+// recomputed. worlds is the unsharded run's world count.
+func Merge(seed uint64, sizes Sizes, policies []string, worlds int, parts [][]Outcome) (*Result, error) {
+	res := &Result{Seed: seed, Sizes: sizes, Worlds: make([]Outcome, 0, worlds)}
+	seen := make([]bool, worlds)
+	for _, part := range parts {
+		for _, o := range part {
+			if o.Index < 0 || o.Index >= worlds {
+				return nil, fmt.Errorf("rehearsal: world %d is outside 0..%d", o.Index, worlds-1)
+			}
+			if seen[o.Index] {
+				return nil, fmt.Errorf("rehearsal: world %d is in two shards", o.Index)
+			}
+			if o.Err == "" && len(o.Policies) != len(policies) {
+				return nil, fmt.Errorf("rehearsal: world %d scores %d policies, not %d", o.Index, len(o.Policies), len(policies))
+			}
+			seen[o.Index] = true
+			res.Worlds = append(res.Worlds, o)
+		}
+	}
+	for i, ok := range seen {
+		if !ok {
+			return nil, fmt.Errorf("rehearsal: world %d is in no shard", i)
+		}
+	}
+	slices.SortFunc(res.Worlds, func(a, b Outcome) int { return a.Index - b.Index })
+	res.summarize(policies)
 	return res, nil
 }
 
@@ -295,11 +341,11 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	return out, nil
 }
 
-func (r *Result) summarize(p Problem) {
+func (r *Result) summarize(policies []string) {
 	r.Raw = Summary{Name: "raw"}
-	r.Policies = make([]Summary, len(p.Policies))
-	for j, pol := range p.Policies {
-		r.Policies[j] = Summary{Name: pol.Name}
+	r.Policies = make([]Summary, len(policies))
+	for j, name := range policies {
+		r.Policies[j] = Summary{Name: name}
 	}
 	checks := map[Kind][2]float64{} // Σ failed share, worlds
 	for _, o := range r.Worlds {

@@ -97,6 +97,7 @@ func newApp(stdout, stderr io.Writer) *cli.App {
 			allocateCommand(),
 			proposeCommand(),
 			rehearseCommand(),
+			rehearseMergeCommand(),
 			verifyCommand(),
 			reportCommand(),
 			keygenCommand(),

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -19,6 +20,7 @@ import (
 	"sluice/policies"
 	"sluice/rehearsal"
 	"sluice/report"
+	"sluice/uncertainty"
 )
 
 func rehearseCommand() *cli.Command {
@@ -42,6 +44,7 @@ func rehearseCommand() *cli.Command {
 			&cli.IntFlag{Name: "world-draws", Value: 60, Usage: "bootstrap replicates of each world's decision"},
 			&cli.IntFlag{Name: "world-replicates", Value: 8, Usage: "recovery-check panels of each world's validation"},
 			&cli.StringFlag{Name: "out", Usage: "also write, into this directory, rehearsal.json (every world's outcome: kind, failed checks, each plan's true gain and verdict) and rehearsal.html (the page for reading)"},
+			&cli.StringFlag{Name: "shard", Value: "1/1", Usage: "run only shard K of N: worlds i with i % N == K-1 (combine with sluice rehearse-merge)"},
 			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress line"},
 		),
@@ -49,6 +52,10 @@ func rehearseCommand() *cli.Command {
 			o, err := newOpts(c)
 			if err != nil {
 				return err
+			}
+			shard, err := uncertainty.ParseShard(o.String("shard"))
+			if err != nil {
+				return withHint(err, "e.g. --shard 2/8 for the second of eight jobs")
 			}
 			planPath := o.String("plan")
 			if planPath == "" {
@@ -93,7 +100,8 @@ func rehearseCommand() *cli.Command {
 			ctx, stop := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)
 			defer stop()
 			set := rehearsal.Settings{Seed: in.Seed, Worlds: o.Int("worlds"), Misspecified: o.Float("misspecified"), Kinds: ks,
-				BaseDraws: o.Int("base-draws"), WorldDraws: o.Int("world-draws"), Replicates: o.Int("world-replicates"), Workers: in.Workers}
+				BaseDraws: o.Int("base-draws"), WorldDraws: o.Int("world-draws"), Replicates: o.Int("world-replicates"), Workers: in.Workers,
+				Shard: shard}
 			start := time.Now()
 			if !o.Bool("quiet") {
 				set.Progress = func(done, total int) {
@@ -107,42 +115,123 @@ func rehearseCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
-			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), Misspecified: set.Misspecified,
-				Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw, FailedShare: r.FailedShare, Errors: r.Errors}
-			var wrote []string
-			if dir := o.String("out"); dir != "" {
-				if err := os.MkdirAll(dir, 0o755); err != nil {
-					return fmt.Errorf("--out: %w", err)
-				}
-				jsonPath, htmlPath := filepath.Join(dir, "rehearsal.json"), filepath.Join(dir, "rehearsal.html")
-				if err := writeJSON(jsonPath, struct {
-					rehearseOutput
-					Outcomes []rehearsal.Outcome `json:"outcomes"`
-				}{out, r.Worlds}); err != nil {
-					return err
-				}
-				if err := report.WriteRehearsal(htmlPath, r); err != nil {
-					return err
-				}
-				wrote = []string{jsonPath, htmlPath}
-			}
-			// With --json, stdout is the JSON alone; the paths go to stderr.
-			pathsTo := c.App.Writer
-			if o.Bool("json") {
-				pathsTo = c.App.ErrWriter
-			}
-			defer func() {
-				for _, p := range wrote {
-					fmt.Fprintln(pathsTo, "wrote", p)
-				}
-			}()
-			if o.Bool("json") {
-				return printJSON(c.App.Writer, out)
-			}
-			printRehearsal(c.App.Writer, out, time.Since(start))
-			return nil
+			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), WorldsTotal: set.Worlds,
+				Shard: shard.String(), Misspecified: set.Misspecified, Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw,
+				FailedShare: r.FailedShare, Errors: r.Errors}
+			return emitRehearsal(c, o, out, r, time.Since(start))
 		},
 	}
+}
+
+// emitRehearsal writes DIR/rehearsal.json and DIR/rehearsal.html (with
+// --out) and prints the table or, with --json, the summary.
+func emitRehearsal(c *cli.Context, o *opts, out rehearseOutput, r *rehearsal.Result, took time.Duration) error {
+	var wrote []string
+	if dir := o.String("out"); dir != "" {
+		if err := os.MkdirAll(dir, 0o755); err != nil {
+			return fmt.Errorf("--out: %w", err)
+		}
+		jsonPath, htmlPath := filepath.Join(dir, "rehearsal.json"), filepath.Join(dir, "rehearsal.html")
+		if err := writeJSON(jsonPath, rehearseFile{out, r.Worlds}); err != nil {
+			return err
+		}
+		if err := report.WriteRehearsal(htmlPath, r); err != nil {
+			return err
+		}
+		wrote = []string{jsonPath, htmlPath}
+	}
+	// With --json, stdout is the JSON alone; the paths go to stderr.
+	pathsTo := c.App.Writer
+	if o.Bool("json") {
+		pathsTo = c.App.ErrWriter
+	}
+	defer func() {
+		for _, p := range wrote {
+			fmt.Fprintln(pathsTo, "wrote", p)
+		}
+	}()
+	if o.Bool("json") {
+		return printJSON(c.App.Writer, out)
+	}
+	printRehearsal(c.App.Writer, out, took)
+	return nil
+}
+
+// rehearseFile is DIR/rehearsal.json: the summary and every world.
+type rehearseFile struct {
+	rehearseOutput
+	Outcomes []rehearsal.Outcome `json:"outcomes"`
+}
+
+func rehearseMergeCommand() *cli.Command {
+	return &cli.Command{
+		Name:      "rehearse-merge",
+		Usage:     "combine rehearsal shards (DIR/rehearsal.json of each --shard K/N run) into the result of one run",
+		ArgsUsage: "SHARD.json...",
+		Flags: []cli.Flag{
+			&cli.StringFlag{Name: "out", Usage: "directory for the merged rehearsal.json and rehearsal.html"},
+			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
+		},
+		Action: func(c *cli.Context) error {
+			o, err := newOpts(c)
+			if err != nil {
+				return err
+			}
+			if c.NArg() == 0 {
+				return withHint(errors.New("rehearse-merge needs the shards' rehearsal.json files"), "sluice rehearse-merge --out DIR part1/rehearsal.json part2/rehearsal.json")
+			}
+			var first *rehearseFile
+			var parts [][]rehearsal.Outcome
+			for _, path := range c.Args().Slice() {
+				b, err := os.ReadFile(path)
+				if err != nil {
+					return err
+				}
+				var f rehearseFile
+				if err := json.Unmarshal(b, &f); err != nil {
+					return fmt.Errorf("%s: %v", path, err)
+				}
+				if first == nil {
+					first = &f
+				} else if msg := sameRehearsal(first.rehearseOutput, f.rehearseOutput); msg != "" {
+					return fmt.Errorf("%s is not a shard of the same rehearsal as %s: %s", path, c.Args().First(), msg)
+				}
+				parts = append(parts, f.Outcomes)
+			}
+			names := make([]string, len(first.Policies))
+			for j, p := range first.Policies {
+				names[j] = p.Name
+			}
+			r, err := rehearsal.Merge(first.Seed, first.Sizes, names, first.WorldsTotal, parts)
+			if err != nil {
+				return err
+			}
+			out := first.rehearseOutput
+			out.Worlds, out.Shard = len(r.Worlds), "1/1"
+			out.Policies, out.Raw, out.FailedShare, out.Errors = r.Policies, r.Raw, r.FailedShare, r.Errors
+			return emitRehearsal(c, o, out, r, 0)
+		},
+	}
+}
+
+// sameRehearsal says how two shards' settings differ ("" when they match).
+func sameRehearsal(a, b rehearseOutput) string {
+	switch {
+	case a.Seed != b.Seed:
+		return fmt.Sprintf("seed %d, not %d", b.Seed, a.Seed)
+	case a.WorldsTotal != b.WorldsTotal:
+		return fmt.Sprintf("%d worlds in all, not %d", b.WorldsTotal, a.WorldsTotal)
+	case a.Sizes != b.Sizes || a.Misspecified != b.Misspecified || fmt.Sprint(a.Kinds) != fmt.Sprint(b.Kinds):
+		return "other sizes, misspecified share or kinds"
+	case len(a.Policies) != len(b.Policies):
+		return "other policies"
+	}
+	for j := range a.Policies {
+		if a.Policies[j].Name != b.Policies[j].Name {
+			return "other policies"
+		}
+	}
+	return ""
 }
 
 // rehearseOutput is `sluice rehearse --json`.
@@ -150,7 +239,9 @@ type rehearseOutput struct {
 	Tool         string                     `json:"tool"`
 	Version      string                     `json:"version"`
 	Seed         uint64                     `json:"seed"`
-	Worlds       int                        `json:"worlds"`
+	Worlds       int                        `json:"worlds"`       // in this file
+	WorldsTotal  int                        `json:"worlds_total"` // of the whole run, all shards
+	Shard        string                     `json:"shard"`
 	Misspecified float64                    `json:"misspecified"`
 	Kinds        []rehearsal.Kind           `json:"kinds"`
 	Sizes        rehearsal.Sizes            `json:"sizes"`
