@@ -10,6 +10,7 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/policies"
 	"sluice/record"
 	"sluice/report"
 	"sluice/uncertainty"
@@ -130,7 +131,7 @@ func signedRoles(path string, body []byte, policy string) ([]string, error) {
 	if err != nil {
 		return nil, err
 	}
-	pol, err := policiesResolve(policy)
+	pol, err := policies.Resolve(policy)
 	if err != nil {
 		return nil, err
 	}

@@ -62,13 +62,12 @@ func simulateCommand() *cli.Command {
 // truthFile is truth.json: the truth as given plus the true figures of
 // every channel, defined exactly as the fit reports them.
 type truthFile struct {
-	Tool     string                 `json:"tool"`
-	Version  string                 `json:"version"`
-	Seed     uint64                 `json:"seed"`
-	Truth    *model.Truth           `json:"truth"`
-	Params   model.Params           `json:"params"`
-	Channels []trueChannelFigures   `json:"channels"`
-	Summary  []model.ChannelSummary `json:"-"`
+	Tool     string               `json:"tool"`
+	Version  string               `json:"version"`
+	Seed     uint64               `json:"seed"`
+	Truth    *model.Truth         `json:"truth"`
+	Params   model.Params         `json:"params"`
+	Channels []trueChannelFigures `json:"channels"`
 }
 
 type trueChannelFigures struct {

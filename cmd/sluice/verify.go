@@ -64,8 +64,6 @@ func verifyCommand() *cli.Command {
 	}
 }
 
-func policiesResolve(arg string) (*policies.Policy, error) { return policies.Resolve(arg) }
-
 func fileExists(p string) bool {
 	_, err := os.Stat(p)
 	return err == nil
