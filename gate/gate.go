@@ -4,8 +4,9 @@
 // downsizes it to a smaller budget-consistent plan that meets the policy, or
 // refuses it, and says who must sign and why.
 //
-// The definitions are DESIGN.md's. The gain of a move from the status quo c
-// to a plan w is Value(w) − Value(c) under each draw (optimize.Economics);
+// The definitions are the README's ("The model", "The plan file",
+// "Policies and the gate"). The gain of a move from the status quo c to a
+// plan w is Value(w) − Value(c) under each draw (optimize.Economics);
 // its distribution gives the probability of loss (share of draws below
 // zero), the downside quantile (Hyndman–Fan type 8, package internal/sample),
 // the lower-tail CVaR and the expected gain. The safe step of a channel is

@@ -9,7 +9,7 @@ import (
 )
 
 // Scenario tests on invented draws. Expected outcomes follow from
-// DESIGN.md's definitions (gain of a move, safe step, support guard,
+// the README's definitions (gain of a move, safe step, support guard,
 // verdicts) and are checked against figures computed here, outside the
 // gate, with Economics.Gains and internal/sample.
 

@@ -65,7 +65,7 @@ func run(t testing.TB, r Review) *Decision {
 }
 
 // pLoss is the probability of loss of moving to plan, computed here from
-// the definition (DESIGN.md "Gain of a move") with the shared value code.
+// the definition (README.md "Gain of a move") with the shared value code.
 func pLoss(r Review, plan []float64) float64 {
 	g := r.Economics.Gains(nil, r.Response, plan, r.Current)
 	return sample.ShareBelow(g, 0)

@@ -11,7 +11,7 @@ import (
 	"sluice/validation"
 )
 
-// Properties every decision keeps, on random invented problems (DESIGN.md,
+// Properties every decision keeps, on random invented problems (README.md,
 // "Verdict" and "Safe step"): the approved plan lies between current and
 // proposed per channel and inside the guards; it keeps the proposal's budget
 // (exactly, for a budget-neutral proposal, to 1e-9 relative); a refusal

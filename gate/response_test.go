@@ -10,7 +10,7 @@ import (
 // spendWeeks weeks, its geometric adstock a_t = x_t + λ a_{t−1} starts from a
 // carried-over state, and over weeks 1..weeks the KPI gains
 // β Σ_t sat(a_t) − β Σ_t sat(carry_t), with sat a Hill curve
-// a^s/(a^s + K^s) or the exponential 1 − exp(−a/K) (DESIGN.md, "Model" and
+// a^s/(a^s + K^s) or the exponential 1 − exp(−a/K) (README.md, "Model" and
 // "Horizon response"). Each Eval costs one pow (or exp) per week.
 type curveResponse struct {
 	nd, nch int

@@ -7,7 +7,7 @@ import (
 
 // LiftEffect against the definition written out by hand: geometric
 // adstock a_t = x_t + λ a_{t−1}, Hill a^s/(a^s + K^s) with K = κ m/(1−λ)
-// (DESIGN.md; m the mean weekly spend), and the same with the window's
+// (README.md; m the mean weekly spend), and the same with the window's
 // spend zeroed, summed over the window and scaled by β.
 func TestLiftEffectByHand(t *testing.T) {
 	x := []float64{10, 0, 30, 20, 20, 0, 5, 40, 10, 10}

@@ -35,7 +35,7 @@ type ChannelSummary struct {
 	Contribution      float64 `json:"contribution"` // KPI over the data
 }
 
-// Summarize computes the per-channel figures of DESIGN.md for parameters p.
+// Summarize computes the per-channel figures of README.md for parameters p.
 func (d *Design) Summarize(p Params, valuePerKPI float64) []ChannelSummary {
 	K := len(d.Spec.Channels)
 	out := make([]ChannelSummary, K)

@@ -13,7 +13,7 @@ import (
 // twoExp is a two-channel exponential problem whose marginal values are
 // known in closed form: with β̄ the mean β over draws, the money marginal
 // ROI of channel k at weekly spend w is m·β̄_k/K_k·e^{−w/K_k}/H (the
-// derivative of β(1 − e^{−w/K}), DESIGN.md "Marginal ROI").
+// derivative of β(1 − e^{−w/K}), README.md "Marginal ROI").
 func twoExp(t *testing.T) (Problem, []float64, []float64) {
 	t.Helper()
 	beta, K := []float64{900e3, 500e3}, []float64{30e3, 20e3}
@@ -47,7 +47,7 @@ func TestMarginalROIAndGain(t *testing.T) {
 	if d := r.Channels[0].MROIProposed - r.Channels[1].MROIProposed; math.Abs(d) > 1e-7 {
 		t.Errorf("marginal ROI differ by %v at the optimum", d)
 	}
-	// The gain of a move is value(w) − value(c) per draw (DESIGN.md): its
+	// The gain of a move is value(w) − value(c) per draw (README.md): its
 	// mean is the difference of the expected values.
 	if d := r.ExpectedGain - (r.Value - r.ValueAtCurrent); math.Abs(d) > 1e-9*math.Abs(r.Value) {
 		t.Errorf("expected gain %v, value change %v", r.ExpectedGain, r.Value-r.ValueAtCurrent)

@@ -17,7 +17,7 @@ package optimize
 // Response is a family of horizon response curves: for each draw d and
 // channel k, R_dk(w) is the extra KPI (in KPI units, over the horizon plus its
 // carryover tail) from spending w per week in each of the horizon's weeks,
-// against spending nothing (DESIGN.md, "Horizon response").
+// against spending nothing (README.md, "Horizon response").
 //
 // Implementations must be safe for concurrent use by several goroutines.
 type Response interface {
@@ -32,7 +32,7 @@ type Response interface {
 //	Margin · ValuePerKPI · Σ_k R_k(w_k) − Horizon · Σ_k w_k
 //
 // so a budget-neutral move is judged on response alone, and a budget change
-// pays for itself or not (DESIGN.md, "Value of a plan").
+// pays for itself or not (README.md, "Value of a plan").
 type Economics struct {
 	Horizon     int     // weeks in the plan; must be > 0
 	Margin      float64 // share of KPI value that is profit; 1 when the KPI is already margin
@@ -84,7 +84,7 @@ func (e Economics) Gains(dst []float64, resp Response, w, c []float64) []float64
 }
 
 // MarginalROI converts one entry of Value's gradient (currency of value per
-// unit of weekly spend) into the money marginal ROI of DESIGN.md,
+// unit of weekly spend) into the money marginal ROI of README.md,
 // Margin · ValuePerKPI · (dR/dw) / Horizon: the currency the last unit of
 // spend returns. Since grad = Margin·ValuePerKPI·dR/dw − Horizon, this is
 // 1 + grad/Horizon.

@@ -14,7 +14,7 @@
 // status quo c is max(Σ increases, Σ cuts) per week, that is
 // ½·Σ|w_k − c_k| + ½·|Σ(w_k − c_k)|; "over the horizon" multiplies a weekly
 // figure by the plan's horizon in weeks (the gain of a move is a figure over
-// the horizon, DESIGN.md "Value of a plan").
+// the horizon, README.md "Value of a plan").
 //
 // Keys (zero value = what an absent key means). The values in the presets
 // are rules of thumb: common practice, no source. The structure (a loss

@@ -9,7 +9,7 @@ import (
 )
 
 // noiselessBase is the demo's point fit with zero residuals, so a world's
-// KPI is the model formula of DESIGN.md (y = base + Σ β·sat(adstock(x)))
+// KPI is the model formula of README.md (y = base + Σ β·sat(adstock(x)))
 // plus the world's departure and nothing else.
 func noiselessBase(t *testing.T) *base {
 	t.Helper()

@@ -61,9 +61,9 @@ func TestBandsNumpy(t *testing.T) {
 }
 
 // The response bands on a spend grid from 0 to twice the top of the
-// observed range: R(0) = 0 in every draw (DESIGN.md, "Horizon response":
+// observed range: R(0) = 0 in every draw (README.md, "Horizon response":
 // minus the same with w = 0), and the median response does not fall as
-// spend rises (β ≥ 0 and saturation increasing, DESIGN.md "Model").
+// spend rises (β ≥ 0 and saturation increasing, README.md "Model").
 func TestResponseBands(t *testing.T) {
 	w := testWorld(t, 114)
 	full, err := w.d.Fit(w.sim.Panel.KPI, model.FitSettings{Seed: 1, Workers: 2})

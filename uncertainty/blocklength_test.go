@@ -147,7 +147,7 @@ func TestAutoBlockLengthArchPublished(t *testing.T) {
 }
 
 // The ratio b_CB/b_SB = (D_SB/D_CB)^(1/3) = 1.5^(1/3) for every series
-// (Patton, Politis & White 2009; reference README section 4) — unless b_max
+// (Patton, Politis & White 2009) — unless b_max
 // caps one of them.
 func TestAutoBlockLengthRatio(t *testing.T) {
 	for _, phi := range []float64{-0.4, 0, 0.3, 0.6, 0.9} {

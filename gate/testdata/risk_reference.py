@@ -2,7 +2,7 @@
 
 Reads JSON on stdin: per draw and channel the curve parameters of the test
 response (beta, half_sat, shape, exp, lambda, steady), the plans, the
-economics and the levels. Rebuilds the horizon responses from the DESIGN.md
+economics and the levels. Rebuilds the horizon responses from the README.md
 definitions with numpy, then prints JSON with the probability of loss,
 sample quantiles by numpy.quantile(method="median_unbiased") (Hyndman & Fan
 type 8), the lower-tail CVaR (mean of the worst alpha mass, boundary draw

@@ -78,7 +78,7 @@ func minLRE(got, want []float64) float64 {
 
 // TestOLSNIST checks OLS against the certified values of NIST StRD linear
 // regression (https://www.itl.nist.gov/div898/strd/lls/lls.shtml), at the
-// tolerances the reference README gives: Longley coefficients, SDs and
+// tolerances NIST's StRD certificates support: Longley coefficients, SDs and
 // residual SD rel 1e-9, Norris rel 1e-10, R² abs 1e-12 for both.
 func TestOLSNIST(t *testing.T) {
 	cases := []struct {
