@@ -38,7 +38,7 @@ func TestCrossCheckPythonCryptography(t *testing.T) {
 		at      time.Time
 	}{
 		{"finance", 11, []Waiver{{"holdout_mape", "Prüfung <2y & neuer Kanal \"TV\""}, {"stability", "one outlier week"}}, time.Date(2026, 4, 1, 9, 0, 0, 0, time.UTC)},
-		{"marketing", 12, nil, time.Time{}},
+		{"marketing", 12, nil, time.Date(2026, 4, 2, 16, 30, 5, 0, time.UTC)},
 	}
 	for _, s := range signers {
 		keyPath, pubPath, err := GenerateKeyFiles(filepath.Join(dir, s.role), seededReader(s.seed))

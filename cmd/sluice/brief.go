@@ -1,15 +1,18 @@
 package main
 
 import (
+	"bytes"
 	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
+	"slices"
 	"time"
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/internal/atomicfile"
 	"sluice/policies"
 	"sluice/record"
 	"sluice/report"
@@ -56,18 +59,6 @@ func newBriefData(run *decisionRun, title string) *briefData {
 	return bd
 }
 
-// writeBrief writes DIR/brief.json and DIR/report.html for a fresh
-// decision (nobody has signed yet) and returns the brief's path.
-func writeBrief(dir string, run *decisionRun, title string) (string, error) {
-	bd := newBriefData(run, title)
-	if err := writeJSON(filepath.Join(dir, "brief.json"), bd); err != nil {
-		return "", err
-	}
-	path := filepath.Join(dir, "report.html")
-	return path, report.Write(path, report.Input{Record: run.rec, Curves: bd.Curves, Gains: bd.Gains,
-		Holdout: bd.Holdout, Title: title})
-}
-
 func reportCommand() *cli.Command {
 	return &cli.Command{
 		Name:  "report",
@@ -91,27 +82,32 @@ func reportCommand() *cli.Command {
 				return err
 			}
 			dir := filepath.Dir(path)
-			raw, err := os.ReadFile(filepath.Join(dir, "brief.json"))
+			if err := atomicfile.CheckSet(dir, filepath.Base(path), "brief.json"); err != nil {
+				return withHint(err, "run sluice propose again to write a complete decision")
+			}
+			bd, err := readBriefData(path, body)
 			if err != nil {
-				return withHint(err, "brief.json is written by sluice propose beside decision.json")
-			}
-			var bd briefData
-			if err := json.Unmarshal(raw, &bd); err != nil {
-				return fmt.Errorf("%s: %v", filepath.Join(dir, "brief.json"), err)
-			}
-			if bd.RecordSHA256 != record.SHA256Hex(body) {
-				return fmt.Errorf("%s was made for another record than %s (the record changed after the decision)", filepath.Join(dir, "brief.json"), path)
+				return err
 			}
 			signed, err := signedRoles(path, body, c.String("policy"))
 			if err != nil {
 				return err
 			}
 			out := c.String("out")
-			if out == "" {
+			in := report.Input{Record: rec, Signed: signed, Curves: bd.Curves, Gains: bd.Gains,
+				Holdout: bd.Holdout, Title: bd.Title, RecordSHA256: record.SHA256Hex(body)}
+			if out == "" || filepath.Clean(out) == filepath.Join(dir, "report.html") {
+				// The brief of the set: rewritten as part of it.
 				out = filepath.Join(dir, "report.html")
-			}
-			if err := report.Write(out, report.Input{Record: rec, Signed: signed, Curves: bd.Curves, Gains: bd.Gains,
-				Holdout: bd.Holdout, Title: bd.Title}); err != nil {
+				var page bytes.Buffer
+				if err := report.Render(&page, in); err != nil {
+					return err
+				}
+				if err := atomicfile.WriteSet(dir, []atomicfile.File{{Name: "report.html", Data: page.Bytes(), Perm: 0o644}},
+					atomicfile.SetOptions{Keep: true}); err != nil {
+					return err
+				}
+			} else if err := report.Write(out, in); err != nil {
 				return err
 			}
 			fmt.Fprintf(c.App.Writer, "wrote %s (%d of %d required roles signed)\n", out, countRequired(rec, signed), len(rec.SignoffsRequired))
@@ -120,14 +116,32 @@ func reportCommand() *cli.Command {
 	}
 }
 
-// signedRoles lists the roles whose signatures on the record are valid for
-// the policy's keys.
+// readBriefData reads the brief.json beside the record at path and checks
+// that it was made for the record's bytes.
+func readBriefData(path string, body []byte) (*briefData, error) {
+	bp := filepath.Join(filepath.Dir(path), "brief.json")
+	raw, err := os.ReadFile(bp)
+	if err != nil {
+		return nil, withHint(err, "brief.json is written by sluice propose beside decision.json")
+	}
+	var bd briefData
+	if err := json.Unmarshal(raw, &bd); err != nil {
+		return nil, fmt.Errorf("%s: %v", bp, err)
+	}
+	if bd.RecordSHA256 != record.SHA256Hex(body) {
+		return nil, fmt.Errorf("%s was made for another record than %s (the record changed after the decision)", bp, path)
+	}
+	return &bd, nil
+}
+
+// signedRoles lists the roles, sorted, whose sign-offs on the record hold
+// under the policy as verify judges them (valid, dated, not withdrawn).
 func signedRoles(path string, body []byte, policy string) ([]string, error) {
 	sp := record.SignaturesPath(path)
 	if !fileExists(sp) || policy == "" {
 		return nil, nil
 	}
-	sigs, err := record.ReadSignoffs(sp)
+	sigs, err := record.ReadSignatures(sp)
 	if err != nil {
 		return nil, err
 	}
@@ -135,11 +149,14 @@ func signedRoles(path string, body []byte, policy string) ([]string, error) {
 	if err != nil {
 		return nil, err
 	}
-	ring, err := record.PolicyKeyring(pol)
-	if err != nil {
-		return nil, err
+	v := record.Verify(record.VerifyRequest{Record: body, Source: path, Signatures: sigs, Policy: pol})
+	var roles []string
+	for _, s := range v.Signed {
+		if !slices.Contains(roles, s.Role) {
+			roles = append(roles, s.Role)
+		}
 	}
-	roles, _ := record.SignedRoles(body, sigs, ring)
+	slices.Sort(roles)
 	return roles, nil
 }
 

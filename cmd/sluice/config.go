@@ -21,7 +21,20 @@ type opts struct {
 	v *viper.Viper
 }
 
+// commandLineOnly are dangerous switches: taken from the command line
+// only, never from sluice.yaml or the environment, where they could be on
+// without the person running sluice seeing it. Either place naming one is
+// refused, not ignored.
+var commandLineOnly = []string{"replace-signed"}
+
 func newOpts(c *cli.Context) (*opts, error) {
+	for _, n := range commandLineOnly {
+		env := "SLUICE_" + strings.ToUpper(strings.ReplaceAll(n, "-", "_"))
+		if _, set := os.LookupEnv(env); set {
+			return nil, hinted{err: fmt.Errorf("%s is set, but --%s is taken from the command line only", env, n),
+				hint: fmt.Sprintf("unset %s and pass --%s on the command line if you mean it", env, n)}
+		}
+	}
 	v := viper.New()
 	v.SetEnvPrefix("SLUICE")
 	v.SetEnvKeyReplacer(strings.NewReplacer("-", "_"))
@@ -52,6 +65,10 @@ func checkConfigKeys(v *viper.Viper, c *cli.Context) error {
 	}
 	var unknown []string
 	for _, k := range v.AllKeys() {
+		if slices.Contains(commandLineOnly, k) || slices.Contains(commandLineOnly, strings.ReplaceAll(k, "_", "-")) {
+			return hinted{err: fmt.Errorf("%s: key %q is refused: --%s is taken from the command line only", configFile, k, strings.ReplaceAll(k, "_", "-")),
+				hint: fmt.Sprintf("remove %s from %s and pass --%s on the command line if you mean it", k, configFile, strings.ReplaceAll(k, "_", "-"))}
+		}
 		if !known[k] && !known[strings.ReplaceAll(k, "_", "-")] {
 			unknown = append(unknown, k)
 		}

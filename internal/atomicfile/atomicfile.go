@@ -24,7 +24,7 @@ func Write(path string, data []byte, perm os.FileMode) error {
 // path is left as it was.
 func WriteFunc(path string, perm os.FileMode, fill func(w io.Writer) error) (err error) {
 	dir := filepath.Dir(path)
-	tmp, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp-*")
+	tmp, err := os.CreateTemp(dir, tempPrefix+filepath.Base(path)+"-*")
 	if err != nil {
 		return err
 	}
