@@ -30,7 +30,7 @@ var commandLineOnly = []string{"replace-signed"}
 func newOpts(c *cli.Context) (*opts, error) {
 	for _, n := range commandLineOnly {
 		env := "SLUICE_" + strings.ToUpper(strings.ReplaceAll(n, "-", "_"))
-		if _, set := os.LookupEnv(env); set {
+		if os.Getenv(env) != "" {
 			return nil, hinted{err: fmt.Errorf("%s is set, but --%s is taken from the command line only", env, n),
 				hint: fmt.Sprintf("unset %s and pass --%s on the command line if you mean it", env, n)}
 		}
