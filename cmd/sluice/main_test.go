@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"os"
+	"regexp"
 	"testing"
 	"time"
 
@@ -37,6 +38,24 @@ func TestScripts(t *testing.T) {
 			d, err := time.ParseDuration(args[0])
 			ts.Check(err)
 			time.Sleep(d)
+		},
+		// forge-draws FILE sets the first Hill shape of the first replicate
+		// (line 2) to -50.
+		"forge-draws": func(ts *testscript.TestScript, neg bool, args []string) {
+			if len(args) != 1 {
+				ts.Fatalf("usage: forge-draws FILE")
+			}
+			path := ts.MkAbs(args[0])
+			b, err := os.ReadFile(path)
+			ts.Check(err)
+			nl := bytes.IndexByte(b, '\n') + 1
+			re := regexp.MustCompile(`"shape":[0-9.eE+-]+`)
+			loc := re.FindIndex(b[nl:])
+			if loc == nil {
+				ts.Fatalf("no shape on line 2 of %s", args[0])
+			}
+			out := append(append(append([]byte{}, b[:nl+loc[0]]...), `"shape":-50`...), b[nl+loc[1]:]...)
+			ts.Check(os.WriteFile(path, out, 0o644))
 		},
 		// replace-text FILE OLD NEW replaces the first OLD in FILE.
 		"replace-text": func(ts *testscript.TestScript, neg bool, args []string) {
