@@ -214,6 +214,9 @@ func policyNames(p Problem) []string {
 // the unsharded run: every world once, in index order, summaries
 // recomputed. worlds is the unsharded run's world count.
 func Merge(seed uint64, sizes Sizes, policies []string, worlds int, parts [][]Outcome) (*Result, error) {
+	if worlds < 0 {
+		return nil, fmt.Errorf("rehearsal: %d worlds", worlds) // a forged shard file (found by FuzzRehearsalJSON)
+	}
 	res := &Result{Seed: seed, Sizes: sizes, Worlds: make([]Outcome, 0, worlds)}
 	seen := make([]bool, worlds)
 	for _, part := range parts {

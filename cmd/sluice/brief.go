@@ -124,12 +124,40 @@ func readBriefData(path string, body []byte) (*briefData, error) {
 	if err != nil {
 		return nil, withHint(err, "brief.json is written by sluice propose beside decision.json")
 	}
-	var bd briefData
-	if err := json.Unmarshal(raw, &bd); err != nil {
-		return nil, fmt.Errorf("%s: %v", bp, err)
+	bd, err := parseBriefData(raw, bp)
+	if err != nil {
+		return nil, err
 	}
 	if bd.RecordSHA256 != record.SHA256Hex(body) {
 		return nil, fmt.Errorf("%s was made for another record than %s (the record changed after the decision)", bp, path)
+	}
+	return bd, nil
+}
+
+// parseBriefData decodes brief.json strictly (unknown fields refused) and
+// checks that the chart data can be laid out: every curve's series as long
+// as its spend grid, the holdout's series as long as its weeks.
+func parseBriefData(raw []byte, source string) (*briefData, error) {
+	dec := json.NewDecoder(bytes.NewReader(raw))
+	dec.DisallowUnknownFields()
+	var bd briefData
+	if err := dec.Decode(&bd); err != nil {
+		return nil, fmt.Errorf("%s: %v", source, err)
+	}
+	if dec.More() {
+		return nil, fmt.Errorf("%s: data after the JSON object", source)
+	}
+	for i, cb := range bd.Curves {
+		n := len(cb.Spend)
+		if len(cb.P10) != n || len(cb.P50) != n || len(cb.P90) != n {
+			return nil, fmt.Errorf("%s: curves[%d]: spend, P10, P50 and P90 differ in length", source, i)
+		}
+	}
+	if h := bd.Holdout; h != nil {
+		n := len(h.Weeks)
+		if len(h.Actual) != n || len(h.Forecast) != n || (h.Low != nil && len(h.Low) != n) || (h.High != nil && len(h.High) != n) {
+			return nil, fmt.Errorf("%s: holdout: weeks and series differ in length", source)
+		}
 	}
 	return &bd, nil
 }
