@@ -100,7 +100,7 @@ func runDemo(c *cli.Context) error {
 		seen[s.Role] = true
 		fmt.Fprintf(w, "  go run ./cmd/sluice sign --record %s --key %s --role %s\n", recPath, roles[s.Role], s.Role)
 	}
-	fmt.Fprintf(w, "  go run ./cmd/sluice verify --record %s --policy %s --data %s\n", recPath, policyPath, data)
+	fmt.Fprintf(w, "  go run ./cmd/sluice verify --record %s --policy %s --brief %s\n", recPath, policyPath, brief)
 	fmt.Fprintf(w, "  go run ./cmd/sluice report --record %s --policy %s   # the brief again, showing who signed\n", recPath, policyPath)
 	return nil
 }
