@@ -333,7 +333,7 @@ func evaluateOf(base string, record []byte, signoffs []Signoff, keys Keyring) []
 			continue
 		}
 		rk := roleKey{s.Role, id}
-		if j, dup := seen[rk]; dup {
+		if j, dup := seen[rk]; dup && base == PayloadType { // one may withdraw, sign again and withdraw again
 			fail("repeats sign-off %d (same role, same key)", j+1)
 			continue
 		}

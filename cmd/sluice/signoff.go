@@ -103,8 +103,12 @@ func signCommand() *cli.Command {
 				fmt.Fprintf(c.App.ErrWriter, "warning: %s\n", w)
 			}
 			pub := key.Public().(ed25519.PublicKey)
-			if err := maySign(pol, role, pub); err != nil {
-				return err
+			if !c.Bool("withdraw") {
+				// A withdrawal needs no listing: only the key that made a
+				// sign-off can withdraw it, whatever the policy says.
+				if err := maySign(pol, role, pub); err != nil {
+					return err
+				}
 			}
 			unlock, err := atomicfile.LockDir(filepath.Dir(path))
 			if err != nil {

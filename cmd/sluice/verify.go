@@ -121,6 +121,9 @@ func printVerification(w io.Writer, path string, v *record.Verification) {
 	for _, s := range v.Withdrawn {
 		fmt.Fprintf(w, "  withdrawn: %s by key %s at %s\n", s.Role, s.KeyID, s.SignedAt.Format("2006-01-02T15:04:05Z"))
 	}
+	for _, n := range v.Notes {
+		fmt.Fprintf(w, "  note: %s\n", n)
+	}
 	switch {
 	case v.NoSignoffRequired:
 		fmt.Fprintln(w, "  sign-offs: no sign-off required (the policy's rules require none for this decision and it allows unsigned decisions)")
