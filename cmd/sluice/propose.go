@@ -143,11 +143,17 @@ func writeDecisionSet(dir string, run *decisionRun, title string, replaceSigned 
 		{Name: "brief.json", Data: append(bdBytes, '\n'), Perm: 0o644},
 		{Name: "report.html", Data: page.Bytes(), Perm: 0o644},
 	}
-	err = atomicfile.WriteSet(dir, files, atomicfile.SetOptions{Guard: func() error { return guardSigned(dir, replaceSigned, true) }})
+	return filepath.Join(dir, "decision.json"), filepath.Join(dir, "report.html"), writeDecisionFiles(dir, files, replaceSigned)
+}
+
+// writeDecisionFiles writes a decision's files as one set, deciding with
+// DIR locked whether a signed record is in the way.
+func writeDecisionFiles(dir string, files []atomicfile.File, replaceSigned bool) error {
+	err := atomicfile.WriteSet(dir, files, atomicfile.SetOptions{Guard: func() error { return guardSigned(dir, replaceSigned, true) }})
 	if errors.Is(err, atomicfile.ErrLocked) {
 		err = withHint(err, "wait for the other run (or sign) to finish, then run again")
 	}
-	return filepath.Join(dir, "decision.json"), filepath.Join(dir, "report.html"), err
+	return err
 }
 
 // decisionRun is everything one decision computed.
