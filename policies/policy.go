@@ -425,7 +425,11 @@ func errorsUnwrapPath(err error) error {
 // band outside [0,1]; an action other than refuse, hold, cap, warn; an unknown
 // family; a waiver or sign-off naming an undefined role; a sign-off rule
 // without a name, with a name used before, without roles, or whose when has
-// not exactly one condition; an unknown verdict; any number not finite.
+// not exactly one condition; an unknown verdict; any number not finite; a
+// key that is not pinned by content (inline PEM, or a path with its
+// sha256 fingerprint) or not an ed25519 PUBLIC KEY; one key under two roles
+// unless signing.allow_shared_signers; no sign-off rule unless
+// signing.allow_unsigned; a negative signing.max_age_days.
 func Parse(data []byte, source string) (*Policy, error) {
 	var p Policy
 	if err := strictyaml.Decode(data, source, &p); err != nil {

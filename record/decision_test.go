@@ -21,7 +21,7 @@ type decisionKey struct {
 	pem  string
 }
 
-func newDecisionKey(t *testing.T, seed uint64) decisionKey {
+func newDecisionKey(t testing.TB, seed uint64) decisionKey {
 	t.Helper()
 	r := rand.New(rand.NewPCG(seed, 1))
 	var s [32]byte
@@ -40,7 +40,7 @@ func indent(s string) string { return strings.ReplaceAll(strings.TrimSpace(s), "
 
 // testPolicy is a policy with two roles, each with one key; finance may
 // waive lift checks.
-func decisionPolicy(t *testing.T, finance, lead decisionKey, extra string) *policies.Policy {
+func decisionPolicy(t testing.TB, finance, lead decisionKey, extra string) *policies.Policy {
 	t.Helper()
 	src := fmt.Sprintf(`version: 1
 name: test
@@ -74,7 +74,7 @@ signoffs:
 // decisionRecord is a record under p whose list of required sign-offs is
 // the one the policy gives (gate.RequiredSignoffs is tested against
 // hand-worked cases in gate/signoff_test.go).
-func decisionRecord(t *testing.T, p *policies.Policy, verdict gate.Verdict) []byte {
+func decisionRecord(t testing.TB, p *policies.Policy, verdict gate.Verdict) []byte {
 	t.Helper()
 	return marshalRecord(t, decisionOf(p, verdict))
 }
@@ -92,7 +92,7 @@ func decisionOf(p *policies.Policy, verdict gate.Verdict) *Decision {
 	return d
 }
 
-func marshalRecord(t *testing.T, d *Decision) []byte {
+func marshalRecord(t testing.TB, d *Decision) []byte {
 	t.Helper()
 	b, err := MarshalDecision(d)
 	if err != nil {
@@ -108,7 +108,7 @@ var (
 	verifyNow = signedAt.Add(24 * time.Hour)
 )
 
-func sign(t *testing.T, rec []byte, k decisionKey, role string, w ...Waiver) Signoff {
+func sign(t testing.TB, rec []byte, k decisionKey, role string, w ...Waiver) Signoff {
 	t.Helper()
 	s, err := SignAt(rec, k.priv, role, w, signedAt)
 	if err != nil {
@@ -179,6 +179,7 @@ func TestVerifyDecision(t *testing.T) {
 		{"no signing time", rec, []Signoff{good[0], undated}, pol, nil, "carries no signing time"},
 		{"signed in the future", rec, []Signoff{good[0], future}, pol, nil, "in the future"},
 		{"an input not named", rec, good, pol, map[string]string{"plan": otherData}, "names no plan input"},
+		{"a file given that does not exist", rec, good, pol, map[string]string{"data": filepath.Join(dir, "none.csv")}, "none.csv: no such file"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

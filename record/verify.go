@@ -126,6 +126,9 @@ func Verify(req VerifyRequest) *Verification {
 		c := InputCheck{Name: n, Path: path}
 		got, err := hashFile(path)
 		switch {
+		case (errors.Is(err, fs.ErrNotExist) || path == "") && req.Files[n] != "":
+			c.State = NotFound
+			fail("--%s %s: no such file", n, path)
 		case errors.Is(err, fs.ErrNotExist) || path == "":
 			c.State = NotFound
 		case err != nil:

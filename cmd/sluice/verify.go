@@ -72,18 +72,17 @@ func verifyCommand() *cli.Command {
 			v := record.Verify(req)
 			// The record must belong to a complete output set (outputs.json
 			// written last by propose): not a leftover of an interrupted run.
-			setState := "complete (" + atomicfile.ManifestName + ")"
+			setState := "complete (" + filepath.Join(filepath.Dir(path), atomicfile.ManifestName) + ")"
 			if err := atomicfile.CheckSet(filepath.Dir(path), filepath.Base(path)); err != nil {
 				v.Problems = append(v.Problems, err.Error())
 				setState = "not complete"
 			}
-			fmt.Fprintf(c.App.Writer, "output set of %s: %s\n", path, setState)
 			if req.Brief != nil && v.Decision != nil {
 				if err := checkBriefRendering(path, body, v, req.Brief, req.BriefSource); err != nil {
 					v.Problems = append(v.Problems, err.Error())
 				}
 			}
-			printVerification(c.App.Writer, path, v)
+			printVerification(c.App.Writer, path, v, setState)
 			if len(v.Problems) > 0 {
 				fmt.Fprintf(c.App.ErrWriter, "%s does not verify:\n", path)
 				for _, p := range v.Problems {
@@ -97,7 +96,7 @@ func verifyCommand() *cli.Command {
 }
 
 // printVerification says exactly what was checked and found.
-func printVerification(w io.Writer, path string, v *record.Verification) {
+func printVerification(w io.Writer, path string, v *record.Verification, setState string) {
 	if v.Decision == nil {
 		return
 	}
@@ -108,6 +107,7 @@ func printVerification(w io.Writer, path string, v *record.Verification) {
 		fmt.Fprintf(w, "%s: what verify checked (verdict %s, policy %s)\n", path, d.Verdict, d.Policy)
 	}
 	fmt.Fprintln(w, "  record: read strictly, its exact bytes are what the signatures cover")
+	fmt.Fprintf(w, "  output set: %s\n", setState)
 	for _, in := range v.Inputs {
 		line := fmt.Sprintf("  %s: %s (%s)", in.Name, in.State, in.Path)
 		if in.Detail != "" {
