@@ -2,12 +2,20 @@ package main
 
 import (
 	"bytes"
+	"errors"
 	"os"
+	"path/filepath"
+	"os/exec"
 	"regexp"
+	"slices"
+	"strconv"
+	"strings"
+	"syscall"
 	"testing"
 	"time"
 
 	"sluice/gate"
+	"sluice/internal/atomicfile"
 	"sluice/record"
 
 	"github.com/rogpeppe/go-internal/testscript"
@@ -57,6 +65,16 @@ func TestScripts(t *testing.T) {
 			out := append(append(append([]byte{}, b[:nl+loc[0]]...), `"shape":-50`...), b[nl+loc[1]:]...)
 			ts.Check(os.WriteFile(path, out, 0o644))
 		},
+		// check-set DIR: DIR is a complete decision set whose three files
+		// belong to one record, or is marked incomplete; no temporary file
+		// is left either way. It prints which.
+		"check-set": checkSetCmd,
+		// kill-trials N DIR ARGS...: runs sluice ARGS --seed 100 once to
+		// time it, then N times more with seeds 101.. (so consecutive runs
+		// write different records), each SIGKILLed at a moment spread over
+		// that time and around its end, and checks DIR after each (see
+		// check-set).
+		"kill-trials": killTrialsCmd,
 		// replace-text FILE OLD NEW replaces the first OLD in FILE.
 		"replace-text": func(ts *testscript.TestScript, neg bool, args []string) {
 			if len(args) != 3 {
@@ -159,4 +177,95 @@ func signAtCmd(ts *testscript.TestScript, neg bool, args []string) {
 	s, err := record.SignAt(body, key, args[2], nil, at)
 	ts.Check(err)
 	ts.Check(record.AppendSignoff(path, s))
+}
+
+func killTrialsCmd(ts *testscript.TestScript, neg bool, args []string) {
+	if len(args) < 3 {
+		ts.Fatalf("usage: kill-trials N DIR ARGS...")
+	}
+	n, err := strconv.Atoi(args[0])
+	ts.Check(err)
+	var bin string
+	for _, d := range filepath.SplitList(ts.Getenv("PATH")) {
+		if p := filepath.Join(d, "sluice"); fileExists(p) {
+			bin = p
+			break
+		}
+	}
+	if bin == "" {
+		ts.Fatalf("sluice not on the script's PATH")
+	}
+	run := func(seed int, kill time.Duration) time.Duration {
+		cmd := exec.Command(bin, append(slices.Clone(args[2:]), "--seed", strconv.Itoa(seed))...)
+		cmd.Dir = ts.Getenv("WORK")
+		for _, k := range []string{"PATH", "HOME", "TMPDIR"} {
+			cmd.Env = append(cmd.Env, k+"="+ts.Getenv(k))
+		}
+		start := time.Now()
+		ts.Check(cmd.Start())
+		if kill > 0 {
+			timer := time.AfterFunc(kill, func() { cmd.Process.Signal(syscall.SIGKILL) })
+			defer timer.Stop()
+		}
+		cmd.Wait()
+		return time.Since(start)
+	}
+	total := run(100, 0)
+	checkSet(ts, args[1])
+	killed := 0
+	for i := range n {
+		// Half the kills spread over the run, half around its end, where
+		// the files are written.
+		frac := (float64(i) + 0.5) / float64(n/2)
+		if i >= n/2 {
+			frac = 0.85 + 0.3*(float64(i-n/2)+0.5)/float64(n-n/2)
+		}
+		at := time.Duration(float64(total) * frac)
+		if run(101+i, at) < total {
+			killed++
+		}
+		checkSet(ts, args[1])
+	}
+	ts.Logf("%d trials over a run of %v, %d killed before they ended", n, total.Round(time.Millisecond), killed)
+}
+
+func checkSetCmd(ts *testscript.TestScript, neg bool, args []string) {
+	if len(args) != 1 {
+		ts.Fatalf("usage: check-set DIR")
+	}
+	checkSet(ts, args[0])
+}
+
+func checkSet(ts *testscript.TestScript, name string) {
+	args := []string{name}
+	dir := ts.MkAbs(args[0])
+	entries, err := os.ReadDir(dir)
+	ts.Check(err)
+	for _, e := range entries {
+		if strings.HasPrefix(e.Name(), ".") {
+			ts.Fatalf("temporary file left in %s: %s", args[0], e.Name())
+		}
+	}
+	names := []string{"decision.json", "brief.json", "report.html"}
+	if err := atomicfile.CheckSet(dir, names...); err != nil {
+		if !errors.Is(err, atomicfile.ErrIncomplete) {
+			ts.Fatalf("%v", err)
+		}
+		ts.Logf("%s: marked incomplete", args[0])
+		return
+	}
+	rec, err := os.ReadFile(filepath.Join(dir, "decision.json"))
+	ts.Check(err)
+	h := record.SHA256Hex(rec)
+	bd, err := os.ReadFile(filepath.Join(dir, "brief.json"))
+	ts.Check(err)
+	page, err := os.ReadFile(filepath.Join(dir, "report.html"))
+	ts.Check(err)
+	if !bytes.Contains(bd, []byte(`"record_sha256": "`+h+`"`)) {
+		ts.Fatalf("%s: complete set, but brief.json belongs to another record", args[0])
+	}
+	if record.CheckBrief(page, "report.html", rec) != nil {
+		ts.Fatalf("%s: complete set, but report.html belongs to another record", args[0])
+	}
+	ts.Logf("%s: complete, one record (%s)", args[0], h[:12])
 }
