@@ -533,9 +533,13 @@ type Signatures struct {
 	Withdrawals []Signoff
 }
 
-// ParseSignatures parses the contents of a signatures file. Unknown fields
-// are refused, so a misspelt field is not silently dropped.
+// ParseSignatures parses the contents of a signatures file. Unknown fields,
+// and a key given twice or in two letter cases, are refused, so a misspelt
+// field is not silently dropped and no reader sees another file.
 func ParseSignatures(data []byte) (*Signatures, error) {
+	if l, c, msg := duplicateKey(data); msg != "" {
+		return nil, &ParseError{Line: l, Column: c, Msg: msg}
+	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
 	var w fileJSON

@@ -15,6 +15,16 @@ import (
 // win, while other readers keep the first or refuse: a record read one way
 // by sluice and another way by a person's script must not verify.
 func checkKeys(data []byte, source string) error {
+	if l, c, msg := duplicateKey(data); msg != "" {
+		return fmt.Errorf("%s:%d:%d: %s", source, l, c, msg)
+	}
+	return nil
+}
+
+// duplicateKey returns the position of the first key repeated in its
+// object, exactly or in another letter case, and what is wrong; msg is ""
+// when there is none (or the JSON is malformed, which the decoder reports).
+func duplicateKey(data []byte) (line, col int, msg string) {
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.UseNumber()
 	type frame struct {
@@ -27,10 +37,10 @@ func checkKeys(data []byte, source string) error {
 		off := dec.InputOffset()
 		tok, err := dec.Token()
 		if errors.Is(err, io.EOF) {
-			return nil
+			return 0, 0, ""
 		}
 		if err != nil {
-			return nil // syntax errors are reported by the decoder proper
+			return 0, 0, "" // syntax errors are reported by the decoder proper
 		}
 		var top *frame
 		if len(stack) > 0 {
@@ -43,9 +53,9 @@ func checkKeys(data []byte, source string) error {
 				if prev, dup := top.keys[folded]; dup {
 					l, c := position(data, skipSpace(data, off))
 					if prev == k {
-						return fmt.Errorf("%s:%d:%d: key %q appears twice in the same object; a record holds each field once", source, l, c, k)
+						return l, c, fmt.Sprintf("key %q appears twice in the same object; each field is given once", k)
 					}
-					return fmt.Errorf("%s:%d:%d: key %q differs from key %q only in letter case; keys are exact (a record holds each field once, as sluice writes it)", source, l, c, k, prev)
+					return l, c, fmt.Sprintf("key %q differs from key %q only in letter case; keys are exact and each field is given once", k, prev)
 				}
 				top.keys[folded] = k
 				continue
