@@ -72,10 +72,22 @@ func verifyCommand() *cli.Command {
 			v := record.Verify(req)
 			// The record must belong to a complete output set (outputs.json
 			// written last by propose): not a leftover of an interrupted run.
-			setState := "complete (" + filepath.Join(filepath.Dir(path), atomicfile.ManifestName) + ")"
-			if err := atomicfile.CheckSet(filepath.Dir(path), filepath.Base(path)); err != nil {
+			// The record must belong to a complete output set (outputs.json
+			// written last by propose): not a leftover of an interrupted run,
+			// and its brief and brief data not changed outside sluice.
+			dir := filepath.Dir(path)
+			setState := fmt.Sprintf("complete, %s, brief.json and report.html as %s lists them", filepath.Base(path), filepath.Join(dir, atomicfile.ManifestName))
+			if err := atomicfile.CheckSet(dir, filepath.Base(path), "brief.json", "report.html"); err != nil {
 				v.Problems = append(v.Problems, err.Error())
 				setState = "not complete"
+			} else if req.Brief == nil && v.Decision != nil {
+				page, err := os.ReadFile(filepath.Join(dir, "report.html"))
+				if err == nil {
+					err = record.CheckBrief(page, filepath.Join(dir, "report.html"), body)
+				}
+				if err != nil {
+					v.Problems = append(v.Problems, err.Error())
+				}
 			}
 			if req.Brief != nil && v.Decision != nil {
 				if err := checkBriefRendering(path, body, v, req.Brief, req.BriefSource); err != nil {
@@ -167,8 +179,8 @@ func checkBriefRendering(path string, body []byte, v *record.Verification, brief
 			return nil
 		}
 	}
-	return fmt.Errorf("brief %s differs from the brief sluice renders from the record and %s: the page was edited (render it again with sluice report)",
-		briefPath, filepath.Join(filepath.Dir(path), "brief.json"))
+	return fmt.Errorf("brief %s differs from the brief sluice renders from the record and %s, unsigned or with the %d sign-offs that hold now: the page was edited, or sign-offs changed since it was rendered (sluice report renders it again)",
+		briefPath, filepath.Join(filepath.Dir(path), "brief.json"), len(v.Signed))
 }
 
 func sortedCopy(xs []string) []string {
