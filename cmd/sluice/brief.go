@@ -13,7 +13,6 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"sluice/internal/atomicfile"
-	"sluice/policies"
 	"sluice/record"
 	"sluice/report"
 	"sluice/uncertainty"
@@ -65,7 +64,7 @@ func reportCommand() *cli.Command {
 		Usage: "render the decision brief (report.html) again, showing who has signed since",
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "record", Usage: "the decision record, e.g. DIR/decision.json (brief.json must lie beside it)"},
-			&cli.StringFlag{Name: "policy", Usage: "policy whose keys decide which signatures count (default: show every role with a valid-looking envelope)"},
+			&cli.StringFlag{Name: "policy", Usage: "policy whose keys and rules decide which sign-offs count (default: the policy file the record names)"},
 			&cli.StringFlag{Name: "out", Usage: "brief to write; default report.html beside the record"},
 		},
 		Action: func(c *cli.Context) error {
@@ -89,7 +88,7 @@ func reportCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
-			signed, err := signedRoles(path, body, c.String("policy"))
+			signed, err := signedRoles(path, body, rec, c.String("policy"))
 			if err != nil {
 				return err
 			}
@@ -164,16 +163,16 @@ func parseBriefData(raw []byte, source string) (*briefData, error) {
 
 // signedRoles lists the roles, sorted, whose sign-offs on the record hold
 // under the policy as verify judges them (valid, dated, not withdrawn).
-func signedRoles(path string, body []byte, policy string) ([]string, error) {
+func signedRoles(path string, body []byte, rec *record.Decision, policy string) ([]string, error) {
 	sp := record.SignaturesPath(path)
-	if !fileExists(sp) || policy == "" {
+	if !fileExists(sp) {
 		return nil, nil
 	}
 	sigs, err := record.ReadSignatures(sp)
 	if err != nil {
 		return nil, err
 	}
-	pol, err := policies.Resolve(policy)
+	pol, err := recordPolicy(rec, policy)
 	if err != nil {
 		return nil, err
 	}
