@@ -48,7 +48,7 @@ func keygenCommand() *cli.Command {
 				return err
 			}
 			fmt.Fprintf(c.App.Writer, "wrote %s (private, keep it secret) and %s (public, key id %s)\n", key, pub, record.KeyID(pk))
-			fmt.Fprintf(c.App.Writer, "pin it under a role in the policy so its signatures count, as its PEM text or as:\n  - %s %s\n", pub, policies.Fingerprint(der))
+			fmt.Fprintf(c.App.Writer, "pin it under a role in the policy so its signatures count, as its PEM text or as (path relative to the policy file):\n  - %s %s\n", pub, policies.Fingerprint(der))
 			return nil
 		},
 	}
