@@ -179,7 +179,7 @@ func TestVerifyDecision(t *testing.T) {
 		{"no signing time", rec, []Signoff{good[0], undated}, pol, nil, "carries no signing time"},
 		{"signed in the future", rec, []Signoff{good[0], future}, pol, nil, "in the future"},
 		{"an input not named", rec, good, pol, map[string]string{"plan": otherData}, "names no plan input"},
-		{"a file given that does not exist", rec, good, pol, map[string]string{"data": filepath.Join(dir, "none.csv")}, "none.csv: no such file"},
+		{"a file given that does not exist", rec, good, pol, map[string]string{"data": filepath.Join(dir, "none.csv")}, "none.csv, given to check, does not exist"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

@@ -128,7 +128,7 @@ func Verify(req VerifyRequest) *Verification {
 		switch {
 		case (errors.Is(err, fs.ErrNotExist) || path == "") && req.Files[n] != "":
 			c.State = NotFound
-			fail("--%s %s: no such file", n, path)
+			fail("%s file %s, given to check, does not exist", n, path)
 		case errors.Is(err, fs.ErrNotExist) || path == "":
 			c.State = NotFound
 		case err != nil:
@@ -145,7 +145,7 @@ func Verify(req VerifyRequest) *Verification {
 	}
 	for n := range req.Files {
 		if _, ok := d.Inputs[n]; !ok && req.Files[n] != "" {
-			fail("--%s %s given, but the record names no %s input", n, req.Files[n], n)
+			fail("%s file %s given to check, but the record names no %s input", n, req.Files[n], n)
 		}
 	}
 
