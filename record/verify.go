@@ -138,6 +138,17 @@ func Verify(req VerifyRequest) *Verification {
 			c.State = Intact
 		default:
 			c.State, c.Detail = Changed, fmt.Sprintf("sha256 %s, the record names %s", short(got), short(in.SHA256))
+			if n == "waivers" {
+				// An earlier record's signatures file grows as people sign
+				// it: what matters is that every waiver this record applied
+				// is still signed there.
+				if msg := waiversStillSigned(path, d, p); msg != "" {
+					fail("waivers %s: %s", path, msg)
+				} else {
+					c.Detail += "; every waiver the record applied is still signed there"
+				}
+				break
+			}
 			fail("%s %s has sha256 %s, but the record was made from %s (%s): the %s changed after the decision",
 				n, path, short(got), in.Path, short(in.SHA256), n)
 		}
@@ -327,4 +338,38 @@ func CheckBrief(brief []byte, source string, record []byte) error {
 		return fmt.Errorf("brief %s: its footer does not show the record's SHA-256 %s", source, short(want))
 	}
 	return nil
+}
+
+// waiversStillSigned checks that every waiver d accepted still holds in the
+// signatures file at path: a valid sign-off, in the waiving role, over the
+// earlier record beside it, with a key p lists for that role. It returns
+// what is missing, or "".
+func waiversStillSigned(path string, d *Decision, p *policies.Policy) string {
+	sigs, err := ReadSignatures(path)
+	if err != nil {
+		return err.Error()
+	}
+	earlier := strings.TrimSuffix(path, ".signatures.json") + ".json"
+	body, err := os.ReadFile(earlier)
+	if err != nil {
+		return fmt.Sprintf("the signed record beside it: %v", err)
+	}
+	ring, err := PolicyKeyring(p)
+	if err != nil {
+		return err.Error()
+	}
+	_, signed := SignedRoles(body, sigs.Signoffs, ring)
+	var missing []string
+	for _, w := range d.Waivers {
+		if !w.Accepted {
+			continue
+		}
+		if !slices.ContainsFunc(signed, func(s RoleWaiver) bool { return s.Role == w.Role && s.Waiver.Check == w.Check }) {
+			missing = append(missing, fmt.Sprintf("%s by %s", w.Check, w.Role))
+		}
+	}
+	if len(missing) > 0 {
+		return "the waiver of " + strings.Join(missing, ", ") + " that this record applied is no longer signed there (withdrawn?)"
+	}
+	return ""
 }
