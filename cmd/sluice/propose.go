@@ -82,6 +82,7 @@ func proposeCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
+			warnUnsignable(c.App.ErrWriter, run)
 			if o.Bool("json") {
 				_, err := c.App.Writer.Write(run.bytes)
 				return err
@@ -121,6 +122,21 @@ func guardSigned(dir string, replace, move bool) error {
 		return err
 	}
 	return os.Rename(sigs, filepath.Join(dir, "decision."+tag+".signatures.json"))
+}
+
+// warnUnsignable says which required roles the policy pins no key for: the
+// decision cannot verify until the policy lists one.
+func warnUnsignable(w io.Writer, run *decisionRun) {
+	var roles []string
+	for _, s := range run.rec.SignoffsRequired {
+		if len(run.policy.KeyEntries(s.Role)) == 0 && !slices.Contains(roles, s.Role) {
+			roles = append(roles, s.Role)
+		}
+	}
+	if len(roles) > 0 {
+		fmt.Fprintf(w, "warning: policy %s pins no key for %s, which must sign this decision: it cannot be signed until the policy lists one\n",
+			run.policy.Name, strings.Join(roles, ", "))
+	}
 }
 
 // writeDecisionSet writes DIR/decision.json, DIR/brief.json and
