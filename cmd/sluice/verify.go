@@ -27,7 +27,7 @@ var verifyInputs = []string{"data", "spec", "plan", "lifts", "draws", "waivers",
 func verifyCommand() *cli.Command {
 	flags := []cli.Flag{
 		&cli.StringFlag{Name: "record", Usage: "the decision record, e.g. DIR/decision.json"},
-		&cli.StringFlag{Name: "policy", Usage: "the policy the decision was made under (preset name or YAML file)"},
+		&cli.StringFlag{Name: "policy", Usage: "your own copy of the policy the decision must meet (preset name or YAML file); never taken from the record"},
 		&cli.StringFlag{Name: "brief", Usage: "also check that this brief (report.html) was rendered from the record"},
 	}
 	for _, n := range verifyInputs {
