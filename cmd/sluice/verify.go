@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -12,6 +13,7 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/gate"
 	"sluice/internal/atomicfile"
 	"sluice/policies"
 	"sluice/record"
@@ -29,6 +31,7 @@ func verifyCommand() *cli.Command {
 		&cli.StringFlag{Name: "record", Usage: "the decision record, e.g. DIR/decision.json"},
 		&cli.StringFlag{Name: "policy", Usage: "your own copy of the policy the decision must meet (preset name or YAML file); never taken from the record"},
 		&cli.StringFlag{Name: "brief", Usage: "also check that this brief (report.html) was rendered from the record"},
+		&cli.BoolFlag{Name: "json", Usage: "print what was checked and found as JSON on stdout (the exit status is the same)"},
 	}
 	for _, n := range verifyInputs {
 		flags = append(flags, &cli.StringFlag{Name: n, Usage: "check this " + n + " file instead of the path the record names"})
@@ -94,7 +97,13 @@ func verifyCommand() *cli.Command {
 					v.Problems = append(v.Problems, err.Error())
 				}
 			}
-			printVerification(c.App.Writer, path, v, setState)
+			if c.Bool("json") {
+				if err := printVerificationJSON(c.App.Writer, path, v, setState); err != nil {
+					return err
+				}
+			} else {
+				printVerification(c.App.Writer, path, v, setState)
+			}
 			if len(v.Problems) > 0 {
 				fmt.Fprintf(c.App.ErrWriter, "%s does not verify:\n", path)
 				for _, p := range v.Problems {
@@ -151,6 +160,69 @@ func printVerification(w io.Writer, path string, v *record.Verification, setStat
 	if len(v.Problems) == 0 {
 		fmt.Fprintln(w, "  not checked: that the figures are right, nor who holds each key; see README, \"What verify guarantees\"")
 	}
+}
+
+// verificationJSON is verify --json: what was checked and found.
+type verificationJSON struct {
+	Record            string         `json:"record"`
+	Verified          bool           `json:"verified"`
+	RecordSHA256      string         `json:"record_sha256"`
+	Verdict           string         `json:"verdict,omitempty"`
+	Policy            string         `json:"policy,omitempty"`
+	OutputSet         string         `json:"output_set"`
+	Inputs            []inputJSON    `json:"inputs"`
+	Required          []gate.Signoff `json:"required"`
+	NoSignoffRequired bool           `json:"no_signoff_required"`
+	Signed            []signerJSON   `json:"signed"`
+	Withdrawn         []signerJSON   `json:"withdrawn"`
+	Notes             []string       `json:"notes"`
+	Problems          []string       `json:"problems"`
+}
+
+type inputJSON struct {
+	Name   string `json:"name"`
+	Path   string `json:"path"`
+	State  string `json:"state"`
+	Detail string `json:"detail,omitempty"`
+}
+
+type signerJSON struct {
+	Role  string `json:"role"`
+	KeyID string `json:"keyid"`
+	At    string `json:"at"`
+}
+
+func printVerificationJSON(w io.Writer, path string, v *record.Verification, setState string) error {
+	out := verificationJSON{Record: path, Verified: len(v.Problems) == 0, OutputSet: setState,
+		Inputs: []inputJSON{}, Required: v.Required, NoSignoffRequired: v.NoSignoffRequired,
+		Signed: []signerJSON{}, Withdrawn: []signerJSON{}, Notes: v.Notes, Problems: v.Problems}
+	if v.Decision != nil {
+		out.Verdict, out.Policy = string(v.Decision.Verdict), v.Decision.Policy
+	}
+	if b, err := os.ReadFile(path); err == nil {
+		out.RecordSHA256 = record.SHA256Hex(b)
+	}
+	for _, in := range v.Inputs {
+		out.Inputs = append(out.Inputs, inputJSON{in.Name, in.Path, in.State, in.Detail})
+	}
+	for _, s := range v.Signed {
+		out.Signed = append(out.Signed, signerJSON{s.Role, s.KeyID, s.SignedAt.Format("2006-01-02T15:04:05Z")})
+	}
+	for _, s := range v.Withdrawn {
+		out.Withdrawn = append(out.Withdrawn, signerJSON{s.Role, s.KeyID, s.SignedAt.Format("2006-01-02T15:04:05Z")})
+	}
+	if out.Required == nil {
+		out.Required = []gate.Signoff{}
+	}
+	if out.Notes == nil {
+		out.Notes = []string{}
+	}
+	if out.Problems == nil {
+		out.Problems = []string{}
+	}
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(out)
 }
 
 // checkBriefRendering renders the brief again from the record and the
