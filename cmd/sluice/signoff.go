@@ -91,6 +91,13 @@ func signCommand() *cli.Command {
 			if err != nil {
 				return withHint(err, "only a decision record written by sluice propose can be signed")
 			}
+			if !c.Bool("withdraw") {
+				// Only a record of a complete output set: not one left by an
+				// interrupted run, nor one whose brief was changed.
+				if err := atomicfile.CheckSet(filepath.Dir(path), filepath.Base(path)); err != nil {
+					return withHint(err, "sign the record in the directory sluice propose wrote it to")
+				}
+			}
 			pol, err := recordPolicy(rec, c.String("policy"))
 			if err != nil {
 				return err
