@@ -37,6 +37,44 @@ type Problem struct {
 	// of Σ_l coef_l M_l(θ), for every j. theta and coef are those of the
 	// last Columns call.
 	Deriv func(theta, coef []float64, d [][]float64)
+
+	// Priors, if not nil, holds one prior per θ_j (a zero Prior is none).
+	// Each adds the residual Weight·(g(θ_j) − Center)/Scale to the
+	// objective, g the identity or log: a Gaussian prior on θ_j or log θ_j
+	// when Weight is the noise SD of the observations, which makes the
+	// minimum a maximum a posteriori estimate. The linear coefficients stay
+	// exact; their priors are extra rows of the observations (the caller's).
+	Priors []Prior
+}
+
+// Prior is a Gaussian prior on one nonlinear parameter, as a penalty
+// residual Weight·(g(θ) − Center)/Scale with g = log when Log is set. A zero
+// Scale means no prior.
+type Prior struct {
+	Center, Scale, Weight float64
+	Log                   bool
+}
+
+// residual returns the prior residual at v and its derivative.
+func (p Prior) residual(v float64) (r, dr float64) {
+	if p.Scale == 0 {
+		return 0, 0
+	}
+	w := p.Weight / p.Scale
+	if p.Log {
+		return w * (math.Log(v) - p.Center), w / v
+	}
+	return w * (v - p.Center), w
+}
+
+// Penalty returns Σ_j prior residual_j² at theta (0 without priors).
+func (p *Problem) Penalty(theta []float64) float64 {
+	var s float64
+	for j, pr := range p.Priors {
+		r, _ := pr.residual(theta[j])
+		s += r * r
+	}
+	return s
 }
 
 // Settings controls the search. The zero value is usable.
@@ -80,7 +118,8 @@ type Result struct {
 	Theta       []float64 // nonlinear parameters
 	Coef        []float64 // coefficients of the varying columns
 	FixedCoef   []float64 // coefficients of the fixed columns
-	RSS         float64
+	RSS         float64   // the minimized objective: residual sum of squares plus Penalty
+	Penalty     float64   // the priors' part of RSS (Problem.Penalty at Theta)
 	Status      Status
 	Evaluations int
 	Iterations  int
@@ -303,6 +342,9 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 	if len(p.Lower) != m || len(p.Upper) != m {
 		panic("varpro: start and bounds differ in length")
 	}
+	if p.Priors != nil && len(p.Priors) != m {
+		panic("varpro: priors and start differ in length")
+	}
 	maxEval := set.MaxEvaluations
 	if maxEval == 0 {
 		maxEval = 400
@@ -321,7 +363,7 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 			return Result{}, ErrBadStart
 		}
 	}
-	rss, err := s.Evaluate(theta)
+	rss, err := s.objective(theta)
 	if err != nil {
 		return Result{}, err
 	}
@@ -341,6 +383,7 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 		res.Iterations++
 		s.jacobian(theta, jac)
 		normalMatrix(jac, s.resid, jtj, grad) // grad = Jᵀ r, the gradient of ½ RSS
+		s.addPriors(theta, jtj, grad)
 		// Which variables may move: not pinned at a bound by the gradient.
 		free := make([]int, 0, m)
 		var maxCos float64
@@ -381,7 +424,7 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 			for i, j := range free {
 				trial[j] = math.Min(p.Upper[j], math.Max(p.Lower[j], theta[j]+step[i]))
 			}
-			tr, err := s.Evaluate(trial)
+			tr, err := s.objective(trial)
 			res.Evaluations++
 			if err == nil && tr < rss {
 				rel := (rss - tr) / math.Max(rss, math.SmallestNonzeroFloat64)
@@ -408,10 +451,11 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 			res.Evaluations++
 			s.jacobian(theta, jac)
 			normalMatrix(jac, s.resid, jtj, grad)
+			s.addPriors(theta, jtj, grad)
 			switch {
 			case degenerate(jtj, nonzero(jtj)):
 				status = Degenerate
-			case converged(jtj, grad, s.resid, theta, p, gradTol):
+			case converged(jtj, grad, rss, theta, p, gradTol):
 				status = Converged
 			default:
 				status = NoProgress
@@ -426,14 +470,38 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 	res.Theta = theta
 	res.Coef = bestCoef
 	res.RSS = rss
+	res.Penalty = p.Penalty(theta)
 	res.Status = status
 	res.FixedCoef = s.fixedCoef()
 	return res, nil
 }
 
-// converged applies the gradient (cosine) test at theta.
-func converged(jtj *mat.SymDense, grad, resid, theta []float64, p *Problem, gradTol float64) bool {
-	rnorm := math.Sqrt(dot(resid, resid))
+// objective is Evaluate plus the priors' penalty.
+func (s *Solver) objective(theta []float64) (float64, error) {
+	rss, err := s.Evaluate(theta)
+	if err != nil || math.IsInf(rss, 1) {
+		return rss, err
+	}
+	return rss + s.p.Penalty(theta), nil
+}
+
+// addPriors adds the prior rows to JᵀJ and Jᵀr: each is a residual of θ_j
+// alone, so it adds to the diagonal and to the gradient only.
+func (s *Solver) addPriors(theta []float64, jtj *mat.SymDense, grad []float64) {
+	for j, pr := range s.p.Priors {
+		r, dr := pr.residual(theta[j])
+		if dr == 0 {
+			continue
+		}
+		jtj.SetSym(j, j, jtj.At(j, j)+dr*dr)
+		grad[j] += dr * r
+	}
+}
+
+// converged applies the gradient (cosine) test at theta; obj is the
+// objective (residual and prior rows) there.
+func converged(jtj *mat.SymDense, grad []float64, obj float64, theta []float64, p *Problem, gradTol float64) bool {
+	rnorm := math.Sqrt(obj)
 	if rnorm == 0 {
 		return true
 	}
@@ -593,7 +661,7 @@ func (s *Solver) StdErrors(res Result) (fixedSE, coefSE, thetaSE []float64, err 
 	}
 	var cov mat.Dense
 	cov.Mul(&rinv, rinv.T())
-	sigma2 := res.RSS / float64(dof)
+	sigma2 := (res.RSS - res.Penalty) / float64(dof)
 	se := make([]float64, k)
 	for j := range k {
 		se[j] = math.Sqrt(sigma2 * cov.At(j, j))
