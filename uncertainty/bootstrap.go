@@ -14,24 +14,40 @@ import (
 // DefaultDraws is the number of replicates when Bootstrap.Draws is zero.
 const DefaultDraws = 1000
 
+// DefaultRefitStarts is the number of starts of a replicate's refit: the
+// warm start, the centre of the box and one seeded random start (common
+// practice, no source: enough to leave the full fit's basin when another
+// is clearly better, at three times the cost of a warm refit).
+const DefaultRefitStarts = 3
+
 // Bootstrap is a residual bootstrap of the response model: the problem (a
 // design and its KPI) and how to resample and refit it. Every field but
 // Design and Y documents what its zero value means.
 //
-// Run first fits the full data (multi-start), then builds replicate i as
+// Run first fits the full data (multi-start, maximum a posteriori with the
+// spec's priors, calibrated with the design's lift tests), then builds
+// replicate i as
 //
-//	y*_i = ŷ + e*_i,   e*_i = Resampler{Method, BlockLength}.Residuals(e, Stream(Seed, i))
+//	y*_i = ŷ + c·e*_i,   e*_i = Resampler{Method, BlockLength}.Residuals(e, Stream(Seed, i))
 //
-// with ŷ and e the full fit's fitted values and residuals, and refits y*_i
-// warm-started from the full fit. A refit that stops without converging
-// (varpro.Converged) is continued from where it stopped, with the search's
-// damping reset; if that does not converge either, it is retried with the
-// full multi-start: Starts starts, the first where the continuation
-// stopped, then the centre of the box and random starts seeded by the next
-// 64 bits of the replicate's stream. If the retry does not converge, the
-// replicate is recorded as failed with the reasons of all three attempts.
-// Replicate i therefore depends only on (the problem, Seed, i): not on the
-// worker count, the order of computation or the shard.
+// with ŷ and e the full fit's fitted values and residuals and c = √(n/(n−p))
+// the residual inflation (p the model's parameter count: fitted residuals
+// are smaller than the errors by about that factor). Each lift test's
+// measured lift is redrawn as measured + se·z (z standard normal from the
+// same stream), so the experiments' own uncertainty enters the replicates.
+// y*_i is refitted with the full fit's priors and noise SD from
+// RefitStarts starts: the full fit (warm), the centre of the box and random
+// starts seeded by the stream, keeping the best, so a replicate can leave
+// the full fit's basin when the data favour another. A refit that stops
+// without converging (varpro.Converged) is continued from where it
+// stopped, with the search's damping reset; if that does not converge
+// either, it is retried with the full multi-start: Starts starts, the
+// first where the continuation stopped, then the centre of the box and
+// random starts seeded by the next 64 bits of the replicate's stream. If
+// the retry does not converge, the replicate is recorded as failed with the
+// reasons of all three attempts. Replicate i therefore depends only on (the
+// problem, Seed, i): not on the worker count, the order of computation or
+// the shard.
 type Bootstrap struct {
 	Design *model.Design
 	Y      []float64 // the observed KPI, length Design.N
@@ -39,10 +55,12 @@ type Bootstrap struct {
 	// Method is the resampling scheme; the zero value means MovingBlock.
 	Method Method
 	// BlockLength is the block length (MovingBlock) or mean block length
-	// (Stationary); Wild ignores it. Zero means automatic: AutoBlockLength
-	// of the full fit's residuals, its Circular value for MovingBlock and
-	// its Stationary value for Stationary.
+	// (Stationary); Wild ignores it. Zero means automatic:
+	// RegressionBlockLength of the full fit's residuals.
 	BlockLength float64
+	// RefitStarts is the number of starts of each replicate's refit (the
+	// warm start first); zero means DefaultRefitStarts.
+	RefitStarts int
 	// Draws is the number of replicates of the whole run (all shards);
 	// zero means DefaultDraws.
 	Draws int
@@ -115,21 +133,33 @@ func (b *Bootstrap) Run(ctx context.Context) (*Draws, error) {
 		return nil, errors.New("uncertainty: full-data fit has non-finite parameters")
 	}
 	bl, auto := b.BlockLength, false
+	var rule *RegressionBlock
 	switch {
 	case method == Wild:
 		bl = 0
 	case bl == 0:
 		auto = true
-		pw := AutoBlockLength(full.Residuals)
-		bl = pw.Circular
-		if method == Stationary {
-			bl = pw.Stationary
-		}
+		rb := RegressionBlockLength(full.Residuals)
+		rule, bl = &rb, rb.Length
 	}
+	refitStarts := b.RefitStarts
+	if refitStarts == 0 {
+		refitStarts = DefaultRefitStarts
+	}
+	if refitStarts < 1 || refitStarts > 200 {
+		return nil, fmt.Errorf("uncertainty: refit starts %d must be between 1 and 200", refitStarts)
+	}
+	p := d.Spec.NumParams()
+	if d.N-p < 1 {
+		return nil, fmt.Errorf("uncertainty: %d weeks leave no degrees of freedom for %d parameters", d.N, p)
+	}
+	inflation := math.Sqrt(float64(d.N) / float64(d.N-p))
 	out := &Draws{Header: Header{
 		Format: FormatVersion, Seed: b.Seed, Method: method, BlockLength: bl, BlockLengthAuto: auto,
+		BlockRule: rule, Inflation: inflation, RefitStarts: refitStarts,
 		Draws: draws, Shard: b.Shard.String(), Model: NewModelInfo(d, starts),
-		FullFit: FullFit{Params: full.Params.Clone(), SSE: full.SSE, Status: full.Status.String()},
+		FullFit: FullFit{Params: full.Params.Clone(), SSE: full.SSE, Status: full.Status.String(),
+			Priors: full.Priors, NoiseSD: full.NoiseSD, Penalty: full.Penalty, LiftTests: len(d.Lifts)},
 	}}
 	mine := make([]int, 0, shardSize(b.Shard, draws))
 	for i := nextInShard(b.Shard, 0); i < draws; i = nextInShard(b.Shard, i+1) {
@@ -137,7 +167,7 @@ func (b *Bootstrap) Run(ctx context.Context) (*Draws, error) {
 	}
 	out.Replicates = make([]Replicate, len(mine))
 	rf := refitter{d: d, full: full, res: Resampler{Method: method, BlockLength: bl}, seed: b.Seed,
-		starts: starts, evals: b.RefitEvaluations}
+		starts: starts, evals: b.RefitEvaluations, refitStarts: refitStarts, inflation: inflation}
 
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
@@ -189,29 +219,47 @@ func (b *Bootstrap) Run(ctx context.Context) (*Draws, error) {
 
 // refitter builds and refits one replicate.
 type refitter struct {
-	d      *model.Design
-	full   *model.FitResult
-	res    Resampler
-	seed   uint64
-	starts int
-	evals  int
+	d           *model.Design
+	full        *model.FitResult
+	res         Resampler
+	seed        uint64
+	starts      int
+	evals       int
+	refitStarts int
+	inflation   float64
 }
 
 func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
 	rng := Stream(r.seed, i)
 	r.res.Residuals(eb, r.full.Residuals, rng)
 	for t, f := range r.full.Fitted {
-		ystar[t] = f + eb[t]
+		ystar[t] = f + r.inflation*eb[t]
 	}
 	retrySeed := rng.Uint64()
+	startSeed := rng.Uint64()
+	d := r.d
+	if len(d.Lifts) > 0 {
+		lifts := append([]model.Lift(nil), d.Lifts...)
+		for j := range lifts {
+			lifts[j].Incremental += lifts[j].StdError * rng.NormFloat64()
+		}
+		var err error
+		if d, err = d.WithLifts(lifts); err != nil {
+			return Replicate{Index: i, Failed: true, Reason: err.Error()}
+		}
+	}
 	warm := &r.full.Params
 	var why []string
 	for attempt := 1; attempt <= 3; attempt++ {
-		set := model.FitSettings{Warm: warm, MaxEvaluations: r.evals}
-		if attempt == 3 {
+		set := model.FitSettings{Warm: warm, MaxEvaluations: r.evals, Priors: r.full.Priors,
+			NoiseSD: r.full.NoiseSD, NoPriors: r.full.Priors == nil}
+		switch attempt {
+		case 1:
+			set.Seed, set.Starts = startSeed, r.refitStarts
+		case 3:
 			set.Seed, set.Starts = retrySeed, r.starts
 		}
-		fr, err := r.d.Fit(ystar, set)
+		fr, err := d.Fit(ystar, set)
 		switch {
 		case err != nil || !finiteParams(fr.Params):
 			if err != nil {
