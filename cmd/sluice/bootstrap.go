@@ -17,6 +17,7 @@ import (
 	"golang.org/x/term"
 
 	"sluice/internal/atomicfile"
+	"sluice/model"
 	"sluice/uncertainty"
 )
 
@@ -82,7 +83,7 @@ func bootstrapCommand() *cli.Command {
 				return err
 			}
 			d.Header.ToolVersion = version
-			d.Header.Inputs = uncertainty.Inputs{DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256}
+			d.Header.Inputs = uncertainty.Inputs{DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256, LiftsSHA256: in.LiftsSHA256}
 			if err := writeDraws(out, d); err != nil {
 				return err
 			}
@@ -123,7 +124,7 @@ func reportDraws(stdout, stderr io.Writer, path string, d *uncertainty.Draws, qu
 		if h.Method != uncertainty.Wild {
 			bl = fmt.Sprintf("%.3g", h.BlockLength)
 			if h.BlockLengthAuto {
-				bl += " (Politis–White)"
+				bl += " (AR(1) plug-in rule)"
 			}
 		}
 		fmt.Fprintf(stdout, "wrote %s: %d replicates (shard %s of %d), %d failed; %s bootstrap, block length %s, seed %d\n",
@@ -133,6 +134,47 @@ func reportDraws(stdout, stderr io.Writer, path string, d *uncertainty.Draws, qu
 		fmt.Fprintf(stderr, "warning: %d of %d refits did not converge; they are kept in %s with \"failed\": true and their reasons, and left out of every summary\n",
 			failed, len(d.Replicates), path)
 	}
+	if !quiet {
+		fmt.Fprintf(stdout, "residuals inflated by %.4g (sqrt(n/(n-p))); %d starts per refit; priors: %s; lift tests in the fit: %d\n",
+			h.Inflation, h.RefitStarts, priorWords(h.FullFit.Priors), h.FullFit.LiftTests)
+		tw := tabwriter.NewWriter(stdout, 0, 0, 2, ' ', 0)
+		fmt.Fprintln(tw, "channel\treplicates on a bound: decay\thalf saturation\tshape\tany")
+		for _, b := range d.OnBound() {
+			fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\n", b.Channel, shareWord(b.Decay), shareWord(b.HalfSaturation), shareWord(b.Shape), shareWord(b.Any))
+		}
+		tw.Flush()
+	}
+	for _, n := range d.Notes() {
+		if strings.Contains(n.Text, "refits failed") && failed > 0 {
+			// The failure count is said above; keep the hint.
+			fmt.Fprintf(stderr, "hint: %s\n", n.Hint)
+			continue
+		}
+		printNote(stderr, n)
+	}
+}
+
+// shareWord prints a bound share; -1 (fixed parameter) and 0 for a
+// parameter the channel does not have print as "-".
+func shareWord(v float64) string {
+	if v < 0 {
+		return "fixed"
+	}
+	return fmt.Sprintf("%.0f%%", 100*v)
+}
+
+// priorWords says which priors the fit used.
+func priorWords(p model.Priors) string {
+	if p == nil {
+		return "none (least squares)"
+	}
+	set := 0
+	for _, c := range p {
+		if !c.ROIDefault {
+			set++
+		}
+	}
+	return fmt.Sprintf("defaults, ROI priors set for %d of %d channels", set, len(p))
 }
 
 // replicateBar draws a one-line progress bar: replicates done, rate and
