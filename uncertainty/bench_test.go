@@ -144,3 +144,39 @@ func BenchmarkRefitEvaluation(b *testing.B) {
 		})
 	}
 }
+
+// A bootstrap of 200 replicates (full fit given, 2 workers) against 40 cold
+// multi-start fits (the spec's 6 starts each, 2 workers) on 156 weeks × 6
+// channels: the bootstrap must cost less than the cold fits.
+func BenchmarkBootstrapVsColdFits(b *testing.B) {
+	tr := benchTruth(156, 6)
+	sim, err := model.Simulate(tr)
+	if err != nil {
+		b.Fatal(err)
+	}
+	d, err := model.NewDesign(sim.Panel, tr.Spec())
+	if err != nil {
+		b.Fatal(err)
+	}
+	full, err := d.Fit(sim.Panel.KPI, model.FitSettings{Seed: 1, Workers: 2})
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.Run("bootstrap200", func(b *testing.B) {
+		for b.Loop() {
+			bs := &Bootstrap{Design: d, Y: sim.Panel.KPI, Draws: 200, Seed: 7, Full: full, Workers: 2}
+			if _, err := bs.Run(context.Background()); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	b.Run("coldfits40", func(b *testing.B) {
+		for b.Loop() {
+			for i := range 40 {
+				if _, err := d.Fit(sim.Panel.KPI, model.FitSettings{Seed: uint64(i), Workers: 2}); err != nil {
+					b.Fatal(err)
+				}
+			}
+		}
+	})
+}

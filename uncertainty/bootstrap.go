@@ -20,6 +20,13 @@ const DefaultDraws = 1000
 // is clearly better, at three times the cost of a warm refit).
 const DefaultRefitStarts = 3
 
+// ProbeEvaluations is the evaluation budget of a refit's starts other than
+// the warm one (model.FitSettings.ProbeEvaluations): enough for a start in
+// a clearly better basin to overtake the warm start (a warm refit takes
+// 30–50), a tenth of a cold start's cost otherwise (common practice, no
+// source). A probe that wins without converging is continued (attempt 2).
+const ProbeEvaluations = 40
+
 // Bootstrap is a residual bootstrap of the response model: the problem (a
 // design and its KPI) and how to resample and refit it. Every field but
 // Design and Y documents what its zero value means.
@@ -37,8 +44,8 @@ const DefaultRefitStarts = 3
 // same stream), so the experiments' own uncertainty enters the replicates.
 // y*_i is refitted with the full fit's priors and noise SD from
 // RefitStarts starts: the full fit (warm), the centre of the box and random
-// starts seeded by the stream, keeping the best, so a replicate can leave
-// the full fit's basin when the data favour another. A refit that stops
+// starts seeded by the stream (ProbeEvaluations each), keeping the best, so
+// a replicate can leave the full fit's basin when the data favour another. A refit that stops
 // without converging (varpro.Converged) is continued from where it
 // stopped, with the search's damping reset; if that does not converge
 // either, it is retried with the full multi-start: Starts starts, the
@@ -255,7 +262,10 @@ func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
 			NoiseSD: r.full.NoiseSD, NoPriors: r.full.Priors == nil}
 		switch attempt {
 		case 1:
-			set.Seed, set.Starts = startSeed, r.refitStarts
+			set.Seed, set.Starts, set.ProbeEvaluations = startSeed, r.refitStarts, ProbeEvaluations
+			if r.evals > 0 && r.evals < ProbeEvaluations {
+				set.ProbeEvaluations = r.evals // a probe never gets more than a start
+			}
 		case 3:
 			set.Seed, set.Starts = retrySeed, r.starts
 		}

@@ -39,7 +39,7 @@ func testWorld() *World {
 // (NumPy/SciPy, run live). Tolerances: mean path, ROI and response are the
 // same sums in another order, 1e-10 relative; the marginal ROI is a central
 // difference of step 1e-4·s against the analytic derivative, whose error is
-// O(h²·R''') — 1e-6 relative is ample; the optimum: SLSQP and the grid
+// O(h²·R”') — 1e-6 relative is ample; the optimum: SLSQP and the grid
 // search stop at different points of a flat maximum, so the plans agree
 // to 1% of the budget and the objective to 1e-6 relative, ours never more
 // than that below.
