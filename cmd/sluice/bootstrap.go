@@ -31,7 +31,7 @@ func bootstrapCommand() *cli.Command {
 		Flags: append(modelFlags(),
 			&cli.IntFlag{Name: "draws", Value: uncertainty.DefaultDraws, Usage: "replicates of the whole run (all shards)"},
 			&cli.StringFlag{Name: "method", Value: string(uncertainty.MovingBlock), Usage: "residual resampling: block (moving-block), stationary or wild"},
-			&cli.StringFlag{Name: "block-length", Value: "auto", Usage: "block length (mean length for stationary): auto (Politis–White on the full fit's residuals) or a number"},
+			&cli.StringFlag{Name: "block-length", Value: "auto", Usage: "block length (mean length for stationary): auto (AR(1) plug-in rule on the full fit's residuals, capped) or a number"},
 			&cli.StringFlag{Name: "shard", Value: "1/1", Usage: "compute only shard K of N: replicates i with i % N == K-1"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress bar and no summary line"},
 			&cli.StringFlag{Name: "out", Usage: "draws file to write (JSON Lines)"},
