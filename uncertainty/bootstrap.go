@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"sync"
 
 	"sluice/internal/varpro"
@@ -236,12 +237,19 @@ type refitter struct {
 	inflation   float64
 }
 
-func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
+// kpi writes replicate i's KPI, ŷ + c·e*, into ystar (eb is scratch) and
+// returns the replicate's stream, advanced past the residuals' draws.
+func (r *refitter) kpi(i int, ystar, eb []float64) *rand.Rand {
 	rng := Stream(r.seed, i)
 	r.res.Residuals(eb, r.full.Residuals, rng)
 	for t, f := range r.full.Fitted {
 		ystar[t] = f + r.inflation*eb[t]
 	}
+	return rng
+}
+
+func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
+	rng := r.kpi(i, ystar, eb)
 	retrySeed := rng.Uint64()
 	startSeed := rng.Uint64()
 	d := r.d

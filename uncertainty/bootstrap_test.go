@@ -5,6 +5,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"strings"
 	"sync"
 	"testing"
@@ -229,5 +230,49 @@ func TestBootstrapSettingsErrors(t *testing.T) {
 		if _, err := b.Run(context.Background()); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%+v: error %v, want %q", c.b, err, c.want)
 		}
+	}
+}
+
+// The header records the inflation √(n/(n−p)) — for testdata/coverage_truth.yaml
+// n = 156 and p = 23 counted by hand (intercept, trend, 4 season terms, 2
+// controls; 3 Hill channels × 4 parameters; 1 exponential channel × 3), so
+// √(156/133) — the refit starts, the block rule and the full fit's priors;
+// and replicate i's KPI is ŷ + c·e*, e* the moving-block resample of the
+// full fit's residuals from Stream(seed, i), rebuilt here from the parts.
+func TestInflationAndHeader(t *testing.T) {
+	w := testWorld(t, 3)
+	b := &Bootstrap{Design: w.d, Y: w.sim.Panel.KPI, Draws: 2, Seed: 5, Workers: 1}
+	d, err := b.Run(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
+	h := d.Header
+	want := math.Sqrt(156.0 / 133.0)
+	if math.Abs(h.Inflation-want) > 1e-15 || h.RefitStarts != DefaultRefitStarts {
+		t.Errorf("inflation %v (want %v), refit starts %d", h.Inflation, want, h.RefitStarts)
+	}
+	if h.BlockRule == nil || h.BlockRule.Length != h.BlockLength || !h.BlockLengthAuto {
+		t.Errorf("block rule %+v, block length %v", h.BlockRule, h.BlockLength)
+	}
+	if len(h.FullFit.Priors) != 4 || !h.FullFit.Priors[0].ROIDefault || !(h.FullFit.NoiseSD > 0) || !(h.FullFit.Penalty > 0) {
+		t.Errorf("full fit priors %+v, noise SD %v, penalty %v", h.FullFit.Priors, h.FullFit.NoiseSD, h.FullFit.Penalty)
+	}
+	full, err := w.d.Fit(w.sim.Panel.KPI, model.FitSettings{Seed: 5, Starts: w.d.Spec.Starts, Workers: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rf := refitter{full: full, res: Resampler{Method: MovingBlock, BlockLength: h.BlockLength}, seed: 5, inflation: h.Inflation}
+	ystar, eb := make([]float64, w.d.N), make([]float64, w.d.N)
+	rf.kpi(1, ystar, eb)
+	e := Resampler{Method: MovingBlock, BlockLength: h.BlockLength}.Residuals(make([]float64, w.d.N), full.Residuals, Stream(5, 1))
+	var ss float64
+	for t2 := range ystar {
+		if d := ystar[t2] - full.Fitted[t2] - want*e[t2]; math.Abs(d) > 1e-9*math.Abs(ystar[t2]) {
+			t.Fatalf("week %d: y* %v, ŷ + c·e* %v", t2, ystar[t2], full.Fitted[t2]+want*e[t2])
+		}
+		ss += e[t2] * e[t2]
+	}
+	if ss == 0 {
+		t.Fatal("resampled residuals are all zero")
 	}
 }
