@@ -200,7 +200,8 @@ type FitSettings struct {
 	NoPriors bool
 	// ProbeEvaluations, if positive, is the evaluation budget of every
 	// start but the first: cheap probes of other basins beside a warm
-	// start. A probe that ends best without converging is returned with
+	// start (with Warm set, the probes are all seeded random points, no
+	// centre of the box). A probe that ends best without converging is returned with
 	// its status, for the caller to continue.
 	ProbeEvaluations int
 }
@@ -344,12 +345,15 @@ func (d *Design) starts(set FitSettings) [][]float64 {
 		out = append(out, th)
 	}
 	logScale := d.logScaled()
+	// Probes beside a warm start are all seeded random points: the centre
+	// of the box is the same for every call, so it probes nothing new.
+	probes := set.Warm != nil && set.ProbeEvaluations > 0
 	for i := 0; len(out) < n; i++ {
 		th := make([]float64, len(lo))
 		rng := rand.New(rand.NewPCG(set.Seed, uint64(i)))
 		for j := range th {
 			u := 0.5
-			if i > 0 {
+			if i > 0 || probes {
 				u = rng.Float64()
 			}
 			if logScale[j] {

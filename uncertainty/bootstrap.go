@@ -16,17 +16,19 @@ import (
 const DefaultDraws = 1000
 
 // DefaultRefitStarts is the number of starts of a replicate's refit: the
-// warm start, the centre of the box and one seeded random start (common
-// practice, no source: enough to leave the full fit's basin when another
-// is clearly better, at three times the cost of a warm refit).
-const DefaultRefitStarts = 3
+// warm start and one seeded random probe (common practice, no source: a
+// replicate can leave the full fit's basin when another is clearly better,
+// at about twice the cost of a warm refit; each replicate's probe is a
+// different point of the box, so over the run the box is searched widely).
+const DefaultRefitStarts = 2
 
 // ProbeEvaluations is the evaluation budget of a refit's starts other than
-// the warm one (model.FitSettings.ProbeEvaluations): enough for a start in
-// a clearly better basin to overtake the warm start (a warm refit takes
-// 30–50), a tenth of a cold start's cost otherwise (common practice, no
-// source). A probe that wins without converging is continued (attempt 2).
-const ProbeEvaluations = 40
+// the warm one (model.FitSettings.ProbeEvaluations): about what a warm
+// refit takes (15–30 evaluations under the priors), enough for a start in a
+// clearly better basin to overtake it, a tenth of a cold start's cost
+// otherwise (common practice, no source). A probe that wins without
+// converging is continued (attempt 2).
+const ProbeEvaluations = 25
 
 // Bootstrap is a residual bootstrap of the response model: the problem (a
 // design and its KPI) and how to resample and refit it. Every field but
@@ -44,9 +46,10 @@ const ProbeEvaluations = 40
 // measured lift is redrawn as measured + se·z (z standard normal from the
 // same stream), so the experiments' own uncertainty enters the replicates.
 // y*_i is refitted with the full fit's priors and noise SD from
-// RefitStarts starts: the full fit (warm), the centre of the box and random
-// starts seeded by the stream (ProbeEvaluations each), keeping the best, so
-// a replicate can leave the full fit's basin when the data favour another. A refit that stops
+// RefitStarts starts: the full fit (warm) and random starts seeded by the
+// stream (probes of ProbeEvaluations each), keeping the best, so a
+// replicate can leave the full fit's basin when the data favour another.
+// A refit that stops
 // without converging (varpro.Converged) is continued from where it
 // stopped, with the search's damping reset; if that does not converge
 // either, it is retried with the full multi-start: Starts starts, the
