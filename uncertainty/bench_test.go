@@ -170,6 +170,14 @@ func BenchmarkBootstrapVsColdFits(b *testing.B) {
 			}
 		}
 	})
+	b.Run("bootstrap200warm", func(b *testing.B) {
+		for b.Loop() {
+			bs := &Bootstrap{Design: d, Y: sim.Panel.KPI, Draws: 200, Seed: 7, Full: full, Workers: 2, RefitStarts: 1}
+			if _, err := bs.Run(context.Background()); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
 	b.Run("coldfits40", func(b *testing.B) {
 		for b.Loop() {
 			for i := range 40 {
