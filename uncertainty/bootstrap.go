@@ -45,7 +45,9 @@ const ProbeEvaluations = 25
 // are smaller than the errors by about that factor). Each lift test's
 // measured lift is redrawn as measured + se·z (z standard normal from the
 // same stream), so the experiments' own uncertainty enters the replicates.
-// y*_i is refitted with the full fit's priors and noise SD from
+// y*_i is refitted with the full fit's noise SD and its priors, each prior's
+// centre redrawn from the prior itself (perturbPriors: randomized maximum
+// likelihood, so what only the prior settles varies as the prior says), from
 // RefitStarts starts: the full fit (warm) and random starts seeded by the
 // stream (probes of ProbeEvaluations each), keeping the best, so a
 // replicate can leave the full fit's basin when the data favour another.
@@ -167,7 +169,7 @@ func (b *Bootstrap) Run(ctx context.Context) (*Draws, error) {
 	inflation := math.Sqrt(float64(d.N) / float64(d.N-p))
 	out := &Draws{Header: Header{
 		Format: FormatVersion, Seed: b.Seed, Method: method, BlockLength: bl, BlockLengthAuto: auto,
-		BlockRule: rule, Inflation: inflation, RefitStarts: refitStarts,
+		BlockRule: rule, Inflation: inflation, RefitStarts: refitStarts, PriorDraws: full.Priors != nil,
 		Draws: draws, Shard: b.Shard.String(), Model: NewModelInfo(d, starts),
 		FullFit: FullFit{Params: full.Params.Clone(), SSE: full.SSE, Status: full.Status.String(),
 			Priors: full.Priors, NoiseSD: full.NoiseSD, Penalty: full.Penalty, LiftTests: len(d.Lifts)},
@@ -266,10 +268,11 @@ func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
 			return Replicate{Index: i, Failed: true, Reason: err.Error()}
 		}
 	}
+	priors := perturbPriors(r.full.Priors, rng)
 	warm := &r.full.Params
 	var why []string
 	for attempt := 1; attempt <= 3; attempt++ {
-		set := model.FitSettings{Warm: warm, MaxEvaluations: r.evals, Priors: r.full.Priors,
+		set := model.FitSettings{Warm: warm, MaxEvaluations: r.evals, Priors: priors,
 			NoiseSD: r.full.NoiseSD, NoPriors: r.full.Priors == nil}
 		switch attempt {
 		case 1:
@@ -305,6 +308,40 @@ func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
 	}
 	return Replicate{Index: i, Failed: true, Reason: fmt.Sprintf("warm refit: %s; continued: %s; %d-start retry: %s",
 		why[0], why[1], r.starts, why[2])}
+}
+
+// perturbPriors returns the priors with every centre redrawn from the
+// prior itself: mean + sd·z (log-normal: median·e^(log_sd·z)), z standard
+// normal from rng, in a fixed order (per channel: decay, peak, half
+// saturation, shape, ROI). Refitting resampled data under redrawn prior
+// centres is randomized maximum likelihood ("randomize, then optimize";
+// exact posterior draws for a linear-Gaussian model, approximate here):
+// a parameter the data cannot settle then varies over the replicates as
+// widely as its prior says, instead of sitting at the prior's centre in
+// every replicate, which would make the bands look certain where only the
+// prior speaks. nil stays nil.
+func perturbPriors(p model.Priors, rng *rand.Rand) model.Priors {
+	if p == nil {
+		return nil
+	}
+	out := make(model.Priors, len(p))
+	for k, c := range p {
+		c.Decay.Mean += c.Decay.SD * rng.NormFloat64()
+		if c.Peak != nil {
+			pk := *c.Peak
+			pk.Mean += pk.SD * rng.NormFloat64()
+			c.Peak = &pk
+		}
+		c.HalfSaturation.Median *= math.Exp(c.HalfSaturation.LogSD * rng.NormFloat64())
+		if c.Shape != nil {
+			sh := *c.Shape
+			sh.Mean += sh.SD * rng.NormFloat64()
+			c.Shape = &sh
+		}
+		c.ROI.Mean += c.ROI.SD * rng.NormFloat64()
+		out[k] = c
+	}
+	return out
 }
 
 func finiteParams(p model.Params) bool {

@@ -251,6 +251,9 @@ func TestInflationAndHeader(t *testing.T) {
 	if math.Abs(h.Inflation-want) > 1e-15 || h.RefitStarts != DefaultRefitStarts {
 		t.Errorf("inflation %v (want %v), refit starts %d", h.Inflation, want, h.RefitStarts)
 	}
+	if !h.PriorDraws {
+		t.Error("prior_draws not recorded")
+	}
 	if h.BlockRule == nil || h.BlockRule.Length != h.BlockLength || !h.BlockLengthAuto {
 		t.Errorf("block rule %+v, block length %v", h.BlockRule, h.BlockLength)
 	}
@@ -274,5 +277,41 @@ func TestInflationAndHeader(t *testing.T) {
 	}
 	if ss == 0 {
 		t.Fatal("resampled residuals are all zero")
+	}
+}
+
+// Redrawn prior centres follow the priors: over 20000 draws the decay
+// centre's mean and SD match N(0.3, 0.3²) and log κ's match N(log 2, 0.5²)
+// to within 4 standard errors (SE of a mean sd/√n, of an SD about
+// sd/√(2n), normal theory); a nil prior stays nil.
+func TestPerturbPriors(t *testing.T) {
+	shape := model.Normal{Mean: 1.5, SD: 0.75}
+	p := model.Priors{{Decay: model.Normal{Mean: 0.3, SD: 0.3}, HalfSaturation: model.LogNormal{Median: 2, LogSD: 0.5},
+		Shape: &shape, ROI: model.Normal{Mean: 0, SD: 4}}}
+	const n = 20000
+	rng := Stream(9, 0)
+	var sd, sd2, sk, sk2 float64
+	for range n {
+		q := perturbPriors(p, rng)
+		d, k := q[0].Decay.Mean, math.Log(q[0].HalfSaturation.Median)
+		sd, sd2, sk, sk2 = sd+d, sd2+d*d, sk+k, sk2+k*k
+		if q[0].Decay.SD != 0.3 || q[0].Shape == p[0].Shape {
+			t.Fatal("an SD changed, or the shape prior is shared with the input")
+		}
+	}
+	check := func(name string, s, s2, mean, sdev float64) {
+		m := s / n
+		v := math.Sqrt(s2/n - m*m)
+		if math.Abs(m-mean) > 4*sdev/math.Sqrt(n) || math.Abs(v-sdev) > 4*sdev/math.Sqrt(2*n) {
+			t.Errorf("%s: mean %.4f SD %.4f, want %.4f and %.4f", name, m, v, mean, sdev)
+		}
+	}
+	check("decay", sd, sd2, 0.3, 0.3)
+	check("log half saturation", sk, sk2, math.Log(2), 0.5)
+	if p[0].Decay.Mean != 0.3 || shape.Mean != 1.5 {
+		t.Error("the input priors were changed")
+	}
+	if perturbPriors(nil, rng) != nil {
+		t.Error("nil priors became non-nil")
 	}
 }
