@@ -13,10 +13,26 @@
 # Needs root (the daemons run as root) and Debian's slurm-wlm and munge,
 # installed here when missing. Every wait is bounded (FANOUT_CI_WAIT
 # seconds, default 240). FANOUT_CI_KEEP=1 keeps the temporary directory.
+#
+#   .ci/slurm.sh            the CI check above (about 20 s)
+#   .ci/slurm.sh scale      the sizing study of the README ("Running beyond
+#                           one machine"): FANOUT_SCALE_DRAWS (default 8000)
+#                           replicates of the invented 312-week, 12-channel
+#                           panel, unsharded and as 1 task and as one task
+#                           per CPU on the same node; wall times, merged =
+#                           unsharded checked (tens of minutes)
 set -euo pipefail
 cd "$(dirname "$0")/.."
 repo=$(pwd)
-wait_limit=${FANOUT_CI_WAIT:-240}
+mode=${1:-check}
+case $mode in
+check) wait_limit=${FANOUT_CI_WAIT:-240} ;;
+scale) wait_limit=${FANOUT_CI_WAIT:-5400} ;;
+*)
+	echo "usage: .ci/slurm.sh [scale]" >&2
+	exit 2
+	;;
+esac
 started=$(date +%s)
 
 say() { printf '== slurm: %s\n' "$*"; }
@@ -214,7 +230,7 @@ SlurmctldTimeout=30
 SlurmdTimeout=30
 InactiveLimit=0
 NodeName=$node NodeAddr=127.0.0.1 NodeHostname=$host $layout State=UNKNOWN
-PartitionName=ci Nodes=$node Default=YES MaxTime=30 State=UP
+PartitionName=ci Nodes=$node Default=YES MaxTime=120 State=UP
 EOF
 say "slurmctld (port $ctld_port) and slurmd (port $slurmd_port), node $node with $cpus CPUs"
 start slurmctld slurmctld -D -f "$SLURM_CONF"
@@ -223,9 +239,83 @@ start slurmd slurmd -D -N "$node" -f "$SLURM_CONF"
 node_idle() { [ "$(sinfo -h -n "$node" -o %t)" = idle ]; }
 wait_for "idle node" node_idle
 
-# --- sharded runs -------------------------------------------------------
 say "building sluice"
 go build -o "$work/bin/sluice" ./cmd/sluice
+sluice=$work/bin/sluice
+fanout=$repo/examples/slurm/fanout.sh
+
+# job_states ID: "TASK STATE" per task of job ID (Slurm keeps finished jobs
+# for MinJobAge, so the states of finished tasks are there to read).
+job_states() {
+	scontrol -o show job "$1" | tr ' ' '\n' | awk -F= '
+		$1 == "JobId" {id = $2} $1 == "ArrayTaskId" {task = $2}
+		$1 == "JobState" {print (task == "" ? id : task), $2; task = ""}'
+}
+# finished ID...: every task of every job ID has ended.
+finished() {
+	local id
+	for id; do
+		job_states "$id" | awk '$2 ~ /^(PENDING|RUNNING|CONFIGURING|COMPLETING|SUSPENDED|REQUEUED|RESIZING)$/ {busy = 1} END {exit busy}' || return 1
+	done
+}
+# job_id RUN WHAT N: the N-th (1-based) job of kind WHAT in RUN/jobs.
+job_id() { awk -v w="$2" -v n="$3" '$1 == w && ++c == n {print $2}' "$work/runs/$1/jobs"; }
+# expect_states ID WANT: the tasks' states, sorted, must be WANT.
+expect_states() {
+	local got
+	got=$(job_states "$1" | sort -n | tr '\n' ' ')
+	[ "$got" = "$2" ] || die "job $1: tasks ended as [$got], want [$2]"
+}
+now() { date +%s.%N; }
+secs() { awk -v a="$1" -v b="$2" 'BEGIN {printf "%.1f", b - a}'; }
+
+if [ "$mode" = scale ]; then
+	draws=${FANOUT_SCALE_DRAWS:-8000}
+	say "scale: $draws replicates of the 312-week, 12-channel panel; $cpus CPUs; load $(cut -d' ' -f1-3 /proc/loadavg)"
+	"$sluice" simulate --truth "$repo/examples/slurm/panel-312x12.yaml" --out "$work/data" >/dev/null
+	channels=$(head -n1 "$work/data/weekly.csv" | tr ',' '\n' | grep '^c[0-9]' | paste -sd, -)
+	big=(--data "$work/data/weekly.csv" --kpi sales --channels "$channels" --controls price_index,promo
+		--draws "$draws" --seed 7)
+	export SLUICE_BIN=$sluice
+	t0=$(now)
+	"$sluice" bootstrap "${big[@]}" --workers "$cpus" --quiet --out "$work/ref/draws.jsonl"
+	t1=$(now)
+	rows=("unsharded, one process, --workers $cpus|$(secs "$t0" "$t1")|-|-")
+	say "unsharded: $(secs "$t0" "$t1") s; load $(cut -d' ' -f1-3 /proc/loadavg)"
+	for shape in "1 $cpus" "$cpus 1"; do
+		read -r n per <<<"$shape"
+		cd "$work/runs"
+		t0=$(now)
+		FANOUT_CPUS=$per "$fanout" submit bootstrap "$n" "scale-$n" "${big[@]}" >/dev/null
+		cd "$repo"
+		wait_for "end of the $n-task run" finished "$(job_id "scale-$n" merge 1)"
+		t1=$(now)
+		expect_states "$(job_id "scale-$n" merge 1)" "$(job_id "scale-$n" merge 1) COMPLETED "
+		cmp "$work/runs/scale-$n/draws.jsonl" "$work/ref/draws.jsonl" || die "$n-task merge differs from the unsharded run"
+		# Longest task and the merge, from Slurm's start and end times (1 s resolution).
+		span() {
+			local a b m=0
+			while read -r a b; do
+				a=$(($(date -d "$b" +%s) - $(date -d "$a" +%s)))
+				[ "$a" -le "$m" ] || m=$a
+			done < <(scontrol -o show job "$1" | tr ' ' '\n' | awk -F= '
+				$1 == "StartTime" {a = $2} $1 == "EndTime" {print a, $2}')
+			printf '%s' "$m"
+		}
+		rows+=("Slurm: $n task(s) x $per CPU, merge after afterok|$(secs "$t0" "$t1")|$(span "$(job_id "scale-$n" tasks 1)")|$(span "$(job_id "scale-$n" merge 1)")")
+		say "$n task(s): $(secs "$t0" "$t1") s; load $(cut -d' ' -f1-3 /proc/loadavg)"
+	done
+	printf '\n| %s | %s | %s | %s |\n|---|---|---|---|\n' "run ($draws replicates, 312 weeks x 12 channels)" "wall s, submit to merged" "longest task s" "merge s"
+	for r in "${rows[@]}"; do
+		IFS='|' read -r a b c d <<<"$r"
+		printf '| %s | %s | %s | %s |\n' "$a" "$b" "$c" "$d"
+	done
+	printf '\n%s CPUs (%s), load average at the end %s; merged files equal the unsharded file byte for byte\n' \
+		"$cpus" "$(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | sed 's/^ //')" "$(cut -d' ' -f1-3 /proc/loadavg)"
+	exit 0
+fi
+
+# --- the CI check -------------------------------------------------------
 # The jobs run sluice through a wrapper that fails once for one shard of
 # each run, as a node fault would; the marker files make it fail only once.
 cat >"$work/bin/flaky-sluice" <<EOF
@@ -250,14 +340,12 @@ EOF
 chmod 755 "$work/bin/flaky-sluice"
 touch "$work/fail-bootstrap" "$work/fail-rehearse"
 export SLUICE_BIN=$work/bin/flaky-sluice
-sluice=$work/bin/sluice
 
 model=(--data "$repo/examples/weekly.csv" --kpi revenue --channels search,social,tv,online_video,display,audio
 	--controls price_index,promo --starts 3)
 boot=("${model[@]}" --draws 48 --seed 7)
 reh=("${model[@]}" --plan "$repo/examples/plan.yaml" --policy standard --policy cautious --worlds 6 --seed 5
 	--base-draws 12 --world-draws 12 --world-replicates 3)
-fanout=$repo/examples/slurm/fanout.sh
 
 # Submit from the run's parent directory: jobs start there.
 cd "$work/runs"
@@ -268,29 +356,6 @@ cd "$repo"
 say "unsharded runs, for reference"
 "$sluice" bootstrap "${boot[@]}" --quiet --workers 1 --out "$work/ref/draws.jsonl"
 "$sluice" rehearse "${reh[@]}" --quiet --workers 1 --out "$work/ref/rehearsal" >/dev/null
-
-# job_states ID: "TASK STATE" per task of job ID (Slurm keeps finished jobs
-# for MinJobAge, so the states of finished tasks are there to read).
-job_states() {
-	scontrol -o show job "$1" | tr ' ' '\n' | awk -F= '
-		$1 == "JobId" {id = $2} $1 == "ArrayTaskId" {task = $2}
-		$1 == "JobState" {print (task == "" ? id : task), $2; task = ""}'
-}
-# finished ID...: every task of every job ID has ended.
-finished() {
-	local id
-	for id; do
-		job_states "$id" | awk '$2 ~ /^(PENDING|RUNNING|CONFIGURING|COMPLETING|SUSPENDED|REQUEUED|RESIZING)$/ {busy = 1} END {exit busy}' || return 1
-	done
-}
-# job_id RUN WHAT N: the N-th (1-based) job of kind WHAT in RUN/jobs.
-job_id() { awk -v w="$2" -v n="$3" '$1 == w && ++c == n {print $2}' "$work/runs/$1/jobs"; }
-# expect_states ID WANT: the tasks' states, sorted, must be WANT.
-expect_states() {
-	local got
-	got=$(job_states "$1" | sort -n | tr '\n' ' ')
-	[ "$got" = "$2" ] || die "job $1: tasks ended as [$got], want [$2]"
-}
 
 say "waiting for the array jobs (at most $wait_limit s)"
 wait_for "end of both array jobs" finished "$(job_id boot tasks 1)" "$(job_id reh tasks 1)"
