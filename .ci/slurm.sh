@@ -305,12 +305,26 @@ if [ "$mode" = scale ]; then
 		rows+=("Slurm: $n task(s) x $per CPU, merge after afterok|$(secs "$t0" "$t1")|$(span "$(job_id "scale-$n" tasks 1)")|$(span "$(job_id "scale-$n" merge 1)")")
 		say "$n task(s): $(secs "$t0" "$t1") s; load $(cut -d' ' -f1-3 /proc/loadavg)"
 	done
+	# The fixed costs the paper model needs: a task's start (read the
+	# panel, the full fit, one replicate) and the merge, each run alone.
+	t0=$(now)
+	"$sluice" bootstrap "${big[@]/#$draws/1}" --workers 1 --quiet --out "$work/ref/one.jsonl"
+	t1=$(now)
+	startup=$(secs "$t0" "$t1")
+	t0=$(now)
+	"$sluice" merge --out "$work/ref/merged.jsonl" "$work/runs/scale-$cpus"/part-*.jsonl >/dev/null
+	t1=$(now)
+	merge=$(secs "$t0" "$t1")
+	cmp "$work/ref/merged.jsonl" "$work/ref/draws.jsonl" || die "local merge differs"
+	say "fixed costs: a task's start (fit + 1 replicate, 1 worker) $startup s; merge of $cpus parts $merge s"
 	printf '\n| %s | %s | %s | %s |\n|---|---|---|---|\n' "run ($draws replicates, 312 weeks x 12 channels)" "wall s, submit to merged" "longest task s" "merge s"
 	for r in "${rows[@]}"; do
 		IFS='|' read -r a b c d <<<"$r"
 		printf '| %s | %s | %s | %s |\n' "$a" "$b" "$c" "$d"
 	done
-	printf '\n%s CPUs (%s), load average at the end %s; merged files equal the unsharded file byte for byte\n' \
+	printf '\nfixed costs, each alone: start of a task (read, full fit, 1 replicate; 1 worker) %s s; sluice merge of %s parts %s s\n' \
+		"$startup" "$cpus" "$merge"
+	printf '%s CPUs (%s), load average at the end %s; merged files equal the unsharded file byte for byte\n' \
 		"$cpus" "$(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | sed 's/^ //')" "$(cut -d' ' -f1-3 /proc/loadavg)"
 	exit 0
 fi
