@@ -165,11 +165,12 @@ wait_for() {
 	done
 }
 
-# free_port: a TCP port on 127.0.0.1 that nothing listens on.
+# free_port: a TCP port on 127.0.0.1 that nothing listens on, below
+# Linux's ephemeral range (32768 up) so no outgoing connection holds it.
 free_port() {
 	local p
-	for ((p = 20000 + ($$ * 7 + RANDOM) % 20000; ; p++)); do
-		[ "$p" -lt 65000 ] || p=20000
+	for ((p = 20000 + ($$ * 7 + RANDOM) % 12000; ; p++)); do
+		[ "$p" -lt 32000 ] || p=20000
 		if ! (exec 3<>"/dev/tcp/127.0.0.1/$p") 2>/dev/null && [[ " ${used_ports:-} " != *" $p "* ]]; then
 			used_ports="${used_ports:-} $p"
 			printf '%s' "$p"

@@ -137,6 +137,9 @@ status)
 	load_run "$dir"
 	missing=$(missing_shards "$dir")
 	printf '%s, %s shards in %s; without output: %s\n' "$kind" "$shards" "$dir" "${missing:-none}"
+	merged=$dir/draws.jsonl
+	[ "$kind" = bootstrap ] || merged=$dir/rehearsal/rehearsal.json
+	[ ! -f "$merged" ] || printf 'merged: %s\n' "$merged"
 	queued_jobs "$dir"
 	;;
 resubmit)
