@@ -1,56 +1,51 @@
 package model
 
 import (
-	"math"
-	"slices"
 	"strings"
 	"testing"
-
-	"sluice/internal/strictyaml"
 )
 
-// FuzzSpecFile fuzzes the model spec (--spec model.yaml): decoded strictly,
-// overlaid on the default spec of its channels and validated. A spec that
-// passes has finite ranges with low <= high inside the documented limits;
-// anything else is refused with the file's name. Seed corpus in
-// testdata/fuzz/FuzzSpecFile; each run takes microseconds, so use a short
-// -fuzzminimizetime.
+// FuzzSpecFile feeds arbitrary YAML to the spec parser and applies it to a
+// three-channel spec (seeds in testdata/fuzz/FuzzSpecFile). It must never
+// panic; a spec it accepts must validate, keep every channel's ranges
+// ordered, and its priors must resolve to positive SDs.
 func FuzzSpecFile(f *testing.F) {
+	for _, s := range []string{
+		"channels:\n  search: {decay: [0, 0], prior: {roi: {mean: 1.2, sd: 0.3}}}\n",
+		"channels:\n  tv: {adstock: delayed, peak: [0, 4], max_lag: 13, prior: {peak: {mean: 2, sd: 1}}}\n",
+		"channels:\n  audio: {saturation: exponential, half_saturation: [0.05, 10], prior: {half_saturation: {median: 0.5, log_sd: 1}}}\n",
+		"horizon_weeks: 13\nharmonics: 2\ntrend: false\nstarts: 3\n",
+	} {
+		f.Add([]byte(s))
+	}
 	f.Fuzz(func(t *testing.T, data []byte) {
-		var sf SpecFile
-		if err := strictyaml.Decode(data, "model.yaml", &sf); err != nil {
-			if !strings.Contains(err.Error(), "model.yaml") {
+		if len(data) > 1<<14 {
+			return
+		}
+		sf, err := ParseSpecFile(data, "spec.yaml")
+		if err != nil {
+			if !strings.HasPrefix(err.Error(), "spec.yaml") {
 				t.Fatalf("error does not name the file: %v", err)
 			}
 			return
 		}
-		var names []string
-		for n := range sf.Channels {
-			names = append(names, n)
-		}
-		slices.Sort(names)
-		if len(names) == 0 {
-			names = []string{"search"}
-		}
-		s := NewSpec(names, sf.Controls)
-		if err := s.ApplyFile(&sf, "model.yaml"); err != nil {
-			if !strings.Contains(err.Error(), "model.yaml") {
-				t.Fatalf("error does not name the file: %v", err)
-			}
+		spec := NewSpec([]string{"search", "tv", "audio"}, nil)
+		if err := spec.ApplyFile(sf, "spec.yaml"); err != nil {
 			return
 		}
-		for _, c := range s.Channels {
-			for _, r := range []Range{c.Decay, c.HalfSaturation, c.Shape, c.Peak} {
-				if math.IsNaN(r[0]) || math.IsNaN(r[1]) || math.IsInf(r[0], 0) || math.IsInf(r[1], 0) || r[0] > r[1] {
-					t.Fatalf("channel %s: accepted range %v", c.Name, r)
-				}
-			}
-			if c.HalfSaturation[0] <= 0 || c.Decay[1] > 0.99 {
-				t.Fatalf("channel %s: accepted half saturation %v, decay %v", c.Name, c.HalfSaturation, c.Decay)
+		if err := spec.Validate("spec.yaml"); err != nil {
+			t.Fatalf("applied spec does not validate: %v", err)
+		}
+		for _, c := range spec.Channels {
+			if c.Decay[0] > c.Decay[1] || c.HalfSaturation[0] > c.HalfSaturation[1] || c.HalfSaturation[0] <= 0 {
+				t.Fatalf("channel %s: ranges %v %v", c.Name, c.Decay, c.HalfSaturation)
 			}
 		}
-		if s.Horizon < 1 || s.Horizon > 104 || s.Starts < 1 || s.Starts > 200 {
-			t.Fatalf("accepted horizon %d, starts %d", s.Horizon, s.Starts)
+		d := &Design{Spec: spec, Spend: [][]float64{{1, 2}, {1, 2}, {1, 2}}, N: 2, MeanSpend: []float64{1.5, 1.5, 1.5}}
+		for _, p := range d.ResolvePriors([]float64{10, 12}) {
+			if !(p.Decay.SD > 0 && p.HalfSaturation.LogSD > 0 && p.ROI.SD > 0 && p.HalfSaturation.Median > 0) {
+				t.Fatalf("unresolved prior %+v", p)
+			}
 		}
 	})
 }

@@ -79,7 +79,7 @@ func FuzzRehearsalJSON(f *testing.F) {
 		for j, p := range rf.Policies {
 			names[j] = p.Name
 		}
-		rehearsal.Merge(rf.Seed, rf.Sizes, names, rf.WorldsTotal, [][]rehearsal.Outcome{rf.Outcomes})
+		rehearsal.Merge(rf.Seed, rf.Sizes, names, rf.WorldsTotal, 1, [][]rehearsal.Outcome{rf.Outcomes})
 	})
 }
 
