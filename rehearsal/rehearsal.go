@@ -216,6 +216,9 @@ func policyNames(p Problem) []string {
 // all parts were run with (0 when unknown or mixed), used to name a
 // missing shard.
 func Merge(seed uint64, sizes Sizes, policies []string, worlds, shards int, parts [][]Outcome) (*Result, error) {
+	if worlds < 0 {
+		return nil, fmt.Errorf("rehearsal: %d worlds", worlds) // a forged shard file (found by FuzzRehearsalJSON)
+	}
 	res := &Result{Seed: seed, Sizes: sizes, Worlds: make([]Outcome, 0, worlds)}
 	seen := make([]bool, worlds)
 	for _, part := range parts {
