@@ -3,6 +3,8 @@ package report
 import (
 	"image/color"
 	"math"
+	"slices"
+	"strconv"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/vg"
@@ -29,14 +31,16 @@ var (
 	markerWidth = vg.Points(2)
 )
 
-// The three positions of a move, always drawn the same way: current spend
-// a black disc, the proposal an orange triangle outlined in black (orange
-// alone is too light against white for WCAG 2.1's 3:1 for graphics), the
-// approved plan a vermillion cross drawn last, so it stays visible on top
-// of the others.
+// The three positions of a move, always drawn the same way, in the brief
+// and on the rehearsal page: current spend a small black disc, the
+// proposal a large orange triangle outlined in black (orange alone is too
+// light against white for WCAG 2.1's 3:1 for graphics), the approved plan
+// a vermillion cross. They are drawn largest first (triangle, cross,
+// disc), so that where two fall on the same spend both stay visible: the
+// triangle's corners reach past the cross, the cross's arms past the disc.
 var (
-	currentGlyph  = draw.GlyphStyle{Color: black, Radius: vg.Points(3.5), Shape: marker{disc}}
-	proposedGlyph = draw.GlyphStyle{Color: orange, Radius: vg.Points(4.5), Shape: marker{triangle}}
+	currentGlyph  = draw.GlyphStyle{Color: black, Radius: vg.Points(2.6), Shape: marker{disc}}
+	proposedGlyph = draw.GlyphStyle{Color: orange, Radius: vg.Points(5.5), Shape: marker{triangle}}
 	approvedGlyph = draw.GlyphStyle{Color: vermillion, Radius: vg.Points(4.5), Shape: marker{cross}}
 )
 
@@ -73,7 +77,7 @@ func (m marker) DrawGlyph(c *draw.Canvas, sty draw.GlyphStyle, pt vg.Point) {
 			{X: pt.X, Y: pt.Y + r},
 		})
 	default:
-		halo.Radius += vg.Points(1.2)
+		halo.Radius += vg.Points(0.8)
 		c.SetColor(white)
 		draw.CircleGlyph{}.DrawGlyph(c, halo, pt)
 		c.SetColor(sty.Color)
@@ -108,19 +112,35 @@ func hatch(c *draw.Canvas, r vg.Rectangle, sty draw.LineStyle, gap vg.Length) {
 	}
 }
 
-// seenRange shades, with a light fill and a grey hatch, the weekly spend
-// the data has seen, over the full height of the plot.
+// seenRange marks, with a light fill and a grey hatch, the weekly spend
+// the data has seen: a strip along the bottom of the plot, below the
+// curve it describes, so that the hatch never runs over the curve or its
+// band (the chart's y axis starts below zero to make room for it).
 type seenRange struct{ low, high float64 }
 
 func (s seenRange) Plot(c draw.Canvas, p *plot.Plot) {
-	trX, _ := p.Transforms(&c)
+	trX, trY := p.Transforms(&c)
 	lo := max(c.Min.X, trX(max(s.low, p.X.Min)))
 	hi := min(c.Max.X, trX(min(s.high, p.X.Max)))
-	if hi <= lo {
+	top := min(c.Max.Y, trY(0)-vg.Points(1.5))
+	if hi <= lo || top <= c.Min.Y {
 		return
 	}
-	r := vg.Rectangle{Min: vg.Point{X: lo, Y: c.Min.Y}, Max: vg.Point{X: hi, Y: c.Max.Y}}
+	r := vg.Rectangle{Min: vg.Point{X: lo, Y: c.Min.Y}, Max: vg.Point{X: hi, Y: top}}
 	s.draw(&c, r)
+}
+
+// nonNegative keeps a tick marker's ticks at zero and above.
+type nonNegative struct{ plot.Ticker }
+
+func (n nonNegative) Ticks(lo, hi float64) []plot.Tick {
+	var out []plot.Tick
+	for _, t := range n.Ticker.Ticks(lo, hi) {
+		if t.Value >= 0 {
+			out = append(out, t)
+		}
+	}
+	return out
 }
 
 func (s seenRange) draw(c *draw.Canvas, r vg.Rectangle) {
@@ -218,6 +238,75 @@ func (moneyTicks) Ticks(lo, hi float64) []plot.Tick {
 		}
 	}
 	return ts
+}
+
+// countTicks label a count axis with whole numbers only: gonum's default
+// positions, without those that are not integers (a count of 2.5 draws
+// means nothing), and with a step of at least 1.
+type countTicks struct{}
+
+func (countTicks) Ticks(lo, hi float64) []plot.Tick {
+	var out []plot.Tick
+	for _, t := range (plot.DefaultTicks{}).Ticks(lo, hi) {
+		if t.Value != math.Trunc(t.Value) {
+			continue
+		}
+		if t.Label != "" {
+			t.Label = strconv.FormatFloat(t.Value, 'f', 0, 64)
+		}
+		out = append(out, t)
+	}
+	if len(out) == 0 || !slices.ContainsFunc(out, func(t plot.Tick) bool { return t.Label != "" }) {
+		// A range under one: label its whole ends.
+		for v := math.Ceil(lo); v <= math.Floor(hi); v++ {
+			out = append(out, plot.Tick{Value: v, Label: strconv.FormatFloat(v, 'f', 0, 64)})
+		}
+	}
+	return out
+}
+
+// hline is a horizontal line across the plot at y.
+type hline struct {
+	y   float64
+	sty draw.LineStyle
+}
+
+func (l hline) Plot(c draw.Canvas, p *plot.Plot) {
+	_, trY := p.Transforms(&c)
+	y := trY(l.y)
+	if y < c.Min.Y || y > c.Max.Y {
+		return
+	}
+	c.StrokeLine2(l.sty, c.Min.X, y, c.Max.X, y)
+}
+
+func (l hline) DataRange() (xmin, xmax, ymin, ymax float64) {
+	return math.Inf(1), math.Inf(-1), l.y, l.y
+}
+
+// residualStems draws each week's residual as a thin vertical stem from
+// zero, so that runs on one side of zero show.
+type residualStems []float64
+
+func (r residualStems) Plot(c draw.Canvas, p *plot.Plot) {
+	trX, trY := p.Transforms(&c)
+	sty := draw.LineStyle{Color: blue, Width: vg.Points(1)}
+	for t, v := range r {
+		c.StrokeLine2(sty, trX(float64(t)), trY(0), trX(float64(t)), trY(v))
+	}
+}
+
+func (r residualStems) Thumbnail(c *draw.Canvas) {
+	x := (c.Min.X + c.Max.X) / 2
+	c.StrokeLine2(draw.LineStyle{Color: blue, Width: vg.Points(1)}, x, c.Min.Y, x, c.Max.Y)
+}
+
+func (r residualStems) DataRange() (xmin, xmax, ymin, ymax float64) {
+	ymin, ymax = 0, 0
+	for _, v := range r {
+		ymin, ymax = min(ymin, v), max(ymax, v)
+	}
+	return 0, float64(len(r) - 1), ymin, ymax
 }
 
 // weekTicks label about six of the holdout weeks, indexed from 0.
