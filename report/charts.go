@@ -2,6 +2,7 @@ package report
 
 import (
 	"bytes"
+	"cmp"
 	"fmt"
 	"image/color"
 	"math"
@@ -515,4 +516,190 @@ func fitChart(c *Contributions, kpi string) ([]byte, error) {
 		return nil, err
 	}
 	return buf.Bytes(), nil
+}
+
+// deciderGlyphs: the raw proposal keeps the brief's proposal marker (an
+// orange triangle), since it is the proposal; each policy takes a shape
+// and colour the brief does not use (the black disc is current spend
+// there, the vermillion cross the approved plan), so a marker means one
+// thing on every page.
+var deciderGlyphs = []draw.GlyphStyle{
+	proposedGlyph,
+	{Color: blue, Radius: vg.Points(4), Shape: marker{square}},
+	{Color: bluishGreen, Radius: vg.Points(4.5), Shape: marker{diamond}},
+	{Color: purple, Radius: vg.Points(4), Shape: marker{ring}},
+	{Color: skyBlue, Radius: vg.Points(4), Shape: marker{square}},
+}
+
+func glyphFor(i int) draw.GlyphStyle { return deciderGlyphs[i%len(deciderGlyphs)] }
+
+// shareTicks label an axis of shares as percentages.
+type shareTicks struct{}
+
+func (shareTicks) Ticks(lo, hi float64) []plot.Tick {
+	ts := plot.DefaultTicks{}.Ticks(lo, hi)
+	for i := range ts {
+		if ts[i].Label != "" {
+			ts[i].Label = pct(ts[i].Value)
+		}
+	}
+	return ts
+}
+
+// tradeoffChart puts each decider at (share of the oracle's gain, chance of
+// a loss), labelled by name. It returns nil when no summary is finite.
+func tradeoffChart(ds []decider) ([]byte, error) {
+	p := newPlot()
+	p.X.Label.Text = "share of the oracle's gain captured"
+	p.Y.Label.Text = "chance of a losing decision"
+	p.X.Tick.Marker, p.Y.Tick.Marker = nonNegative{shareTicks{}}, nonNegative{shareTicks{}}
+	p.Y.Min, p.Y.Max = 0, 0.05
+	p.X.Min, p.X.Max = 0, 0.05
+	p.Add(gridLines{x: true, y: true})
+	leg := newLegend()
+	var pts plotter.XYs
+	var names []string
+	for i, d := range ds {
+		x, y := d.sum.OracleShare, d.sum.PLoss
+		if !finiteAll([]float64{x, y}) {
+			continue
+		}
+		s, err := plotter.NewScatter(plotter.XYs{{X: x, Y: y}})
+		if err != nil {
+			return nil, fmt.Errorf("report: trade-off: %w", err)
+		}
+		s.GlyphStyle = glyphFor(i)
+		p.Add(s)
+		leg.Add(d.name, s)
+		pts = append(pts, plotter.XY{X: x, Y: y})
+		names = append(names, d.name)
+		p.X.Min, p.X.Max = min(p.X.Min, x), max(p.X.Max, x)
+		p.Y.Max = max(p.Y.Max, y)
+	}
+	if len(pts) == 0 {
+		return nil, nil
+	}
+	// Neighbours in x take turns above and below their marker, so that
+	// close markers' labels do not run into each other.
+	order := make([]int, len(pts))
+	for i := range order {
+		order[i] = i
+	}
+	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(pts[a].X, pts[b].X) })
+	for rank, i := range order {
+		l, err := plotter.NewLabels(plotter.XYLabels{XYs: pts[i : i+1], Labels: names[i : i+1]})
+		if err != nil {
+			return nil, fmt.Errorf("report: trade-off: %w", err)
+		}
+		l.TextStyle[0].Font = font.From(sans, legendSize)
+		l.Offset = vg.Point{X: vg.Points(7), Y: vg.Points(4)}
+		if rank%2 == 1 {
+			l.Offset.Y = -vg.Points(12)
+		}
+		p.Add(l)
+	}
+	// Room for the labels right of the markers and above the highest,
+	// and below 0% and left of 0%, so that a decider that never loses, or
+	// captures nothing, is drawn clear of the axes rather than on them.
+	span := p.X.Max - p.X.Min
+	p.X.Max += 0.35 * span
+	p.X.Min -= 0.04 * span
+	p.Y.Max *= 1.15
+	p.Y.Min = -0.08 * p.Y.Max
+	return svgWithLegend(p, leg, 7*vg.Inch, 3.2*vg.Inch)
+}
+
+// gainsChart draws one horizontal box plot of the true gains per decider,
+// first decider at the top, with zero marked. It returns nil when no
+// decider has a gain.
+func gainsChart(ds []decider, horizon int) ([]byte, error) {
+	p := newPlot()
+	p.X.Label.Text = fmt.Sprintf("true gain over %s", plural(horizon, "week", "weeks"))
+	n := len(ds)
+	names := make([]string, n)
+	drawn := false
+	var bars []plot.Plotter // drawn over the break-even line
+	for i, d := range ds {
+		names[n-1-i] = d.name
+		if len(d.gains) == 0 {
+			continue
+		}
+		if !finiteAll(d.gains) {
+			return nil, fmt.Errorf("report: gains of %s must be finite numbers", d.name)
+		}
+		b, err := plotter.NewBoxPlot(vg.Points(16), float64(n-1-i), plotter.Values(d.gains))
+		if err != nil {
+			return nil, fmt.Errorf("report: gains of %s: %w", d.name, err)
+		}
+		b.Horizontal = true
+		// A tinted box with a black outline: visible on white and in
+		// greyscale; the names on the axis tell the boxes apart.
+		b.FillColor = bandFill
+		b.BoxStyle = draw.LineStyle{Color: black, Width: vg.Points(1.2)}
+		b.MedianStyle = draw.LineStyle{Color: black, Width: vg.Points(2.4)}
+		b.WhiskerStyle = draw.LineStyle{Color: black, Width: vg.Points(0.8)}
+		b.GlyphStyle = draw.GlyphStyle{Color: black, Radius: vg.Points(2), Shape: draw.RingGlyph{}}
+		p.Add(b)
+		if slices.Min(d.gains) == slices.Max(d.gains) {
+			// Every world gave the same gain (a policy that refused them
+			// all gains 0 everywhere): the box has no width, so a bar
+			// marks the value.
+			bars = append(bars, pointBar{x: d.gains[0], y: float64(n - 1 - i)})
+		}
+		drawn = true
+	}
+	if !drawn {
+		return nil, nil
+	}
+	p.NominalY(names...)
+	p.Y.Tick.Label.Font = font.From(sans, labelSize)
+	p.Y.Padding = vg.Points(10)
+	p.X.Min, p.X.Max = math.Min(p.X.Min, 0), math.Max(p.X.Max, 0)
+	zero := vline{0, draw.LineStyle{Color: black, Width: vg.Points(1.4)}}
+	p.Add(gridLines{x: true}, zero)
+	p.Add(bars...)
+	leg := newLegend()
+	leg.Add("break-even (0)", zero)
+	leg.Add("middle half of worlds", boxThumb{})
+	if len(bars) > 0 {
+		leg.Add("every world the same", pointBar{})
+	}
+	h := vg.Length(n)*0.45*vg.Inch + 0.8*vg.Inch
+	return svgWithLegend(p, leg, 7*vg.Inch, h)
+}
+
+// pointBar is a short thick vertical bar at (x, y): a distribution with no
+// spread, in the box plot's row.
+type pointBar struct{ x, y float64 }
+
+func (b pointBar) Plot(c draw.Canvas, p *plot.Plot) {
+	trX, trY := p.Transforms(&c)
+	b.draw(&c, vg.Point{X: trX(b.x), Y: trY(b.y)})
+}
+
+// draw a 7×18 point bar centred on pt (no taller than the canvas): grey,
+// outlined in black, wider than the break-even line it may sit on.
+func (pointBar) draw(c *draw.Canvas, pt vg.Point) {
+	w, h := vg.Points(3.5), min(vg.Points(9), (c.Max.Y-c.Min.Y)/2)
+	pts := []vg.Point{{X: pt.X - w, Y: pt.Y - h}, {X: pt.X + w, Y: pt.Y - h}, {X: pt.X + w, Y: pt.Y + h}, {X: pt.X - w, Y: pt.Y + h}}
+	c.FillPolygon(seenHatch, pts)
+	c.StrokeLines(draw.LineStyle{Color: black, Width: vg.Points(1.2)}, append(pts, pts[0]))
+}
+
+func (b pointBar) Thumbnail(c *draw.Canvas) {
+	b.draw(c, vg.Point{X: (c.Min.X + c.Max.X) / 2, Y: (c.Min.Y + c.Max.Y) / 2})
+}
+
+func (b pointBar) DataRange() (xmin, xmax, ymin, ymax float64) { return b.x, b.x, b.y, b.y }
+
+// boxThumb is the legend's picture of a box.
+type boxThumb struct{}
+
+func (boxThumb) Thumbnail(c *draw.Canvas) {
+	r := c.Rectangle
+	inset := (r.Max.Y - r.Min.Y) / 6
+	r.Min.Y, r.Max.Y = r.Min.Y+inset, r.Max.Y-inset
+	pts := []vg.Point{r.Min, {X: r.Max.X, Y: r.Min.Y}, r.Max, {X: r.Min.X, Y: r.Max.Y}}
+	c.FillPolygon(bandFill, pts)
+	c.StrokeLines(draw.LineStyle{Color: black, Width: vg.Points(1.2)}, append(pts, r.Min))
 }

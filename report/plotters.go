@@ -22,6 +22,9 @@ var (
 	vermillion  = color.NRGBA{0xD5, 0x5E, 0x00, 0xff}
 	white       = color.NRGBA{0xff, 0xff, 0xff, 0xff}
 	bandFill    = color.NRGBA{0x56, 0xB4, 0xE9, 0x66} // sky blue, 40% opaque
+	skyBlue     = color.NRGBA{0x56, 0xB4, 0xE9, 0xff}
+	bluishGreen = color.NRGBA{0x00, 0x9E, 0x73, 0xff}
+	purple      = color.NRGBA{0xCC, 0x79, 0xA7, 0xff} // reddish purple
 	seenFill    = color.NRGBA{0xEE, 0xEE, 0xEE, 0xff}
 	seenHatch   = color.NRGBA{0x76, 0x76, 0x76, 0xff}
 	gridColour  = color.NRGBA{0xDD, 0xDD, 0xDD, 0xff}
@@ -50,6 +53,9 @@ const (
 	disc shape = iota
 	triangle
 	cross
+	square
+	diamond
+	ring
 )
 
 // marker is a glyph with a white halo, so it reads on top of lines and
@@ -76,6 +82,22 @@ func (m marker) DrawGlyph(c *draw.Canvas, sty draw.GlyphStyle, pt vg.Point) {
 			{X: pt.X + r*0.8660254, Y: pt.Y - r/2},
 			{X: pt.X, Y: pt.Y + r},
 		})
+	case square, diamond, ring:
+		r := sty.Radius
+		var pts []vg.Point
+		if m.shape == diamond {
+			pts = []vg.Point{{X: pt.X, Y: pt.Y + r*1.2}, {X: pt.X + r, Y: pt.Y}, {X: pt.X, Y: pt.Y - r*1.2}, {X: pt.X - r, Y: pt.Y}}
+		} else {
+			pts = []vg.Point{{X: pt.X - r, Y: pt.Y - r}, {X: pt.X + r, Y: pt.Y - r}, {X: pt.X + r, Y: pt.Y + r}, {X: pt.X - r, Y: pt.Y + r}}
+		}
+		if m.shape == ring {
+			c.StrokeLines(draw.LineStyle{Color: white, Width: vg.Points(4)}, circle(pt, r))
+			c.StrokeLines(draw.LineStyle{Color: sty.Color, Width: vg.Points(2)}, circle(pt, r))
+			return
+		}
+		c.StrokeLines(draw.LineStyle{Color: white, Width: vg.Points(2.4)}, append(pts, pts[0]))
+		c.FillPolygon(sty.Color, pts)
+		c.StrokeLines(draw.LineStyle{Color: black, Width: vg.Points(0.8)}, append(pts, pts[0]))
 	default:
 		halo.Radius += vg.Points(0.8)
 		c.SetColor(white)
@@ -83,6 +105,16 @@ func (m marker) DrawGlyph(c *draw.Canvas, sty draw.GlyphStyle, pt vg.Point) {
 		c.SetColor(sty.Color)
 		draw.CircleGlyph{}.DrawGlyph(c, sty, pt)
 	}
+}
+
+// circle approximates a circle of radius r around pt by 24 segments.
+func circle(pt vg.Point, r vg.Length) []vg.Point {
+	pts := make([]vg.Point, 25)
+	for i := range pts {
+		a := 2 * math.Pi * float64(i) / 24
+		pts[i] = vg.Point{X: pt.X + r*vg.Length(math.Cos(a)), Y: pt.Y + r*vg.Length(math.Sin(a))}
+	}
+	return pts
 }
 
 func (marker) cross(c *draw.Canvas, clr color.Color, radius, width vg.Length, pt vg.Point) {

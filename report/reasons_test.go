@@ -5,6 +5,8 @@ import (
 	"strings"
 	"testing"
 
+	"gonum.org/v1/plot/vg/draw"
+
 	"sluice/gate"
 	"sluice/policies"
 	"sluice/validation"
@@ -74,5 +76,28 @@ func TestCountTicks(t *testing.T) {
 		if labelled == 0 {
 			t.Errorf("range %v: no labelled tick", r)
 		}
+	}
+}
+
+// TestOneMeaningPerMarker: the rehearsal page draws the raw proposal with
+// the brief's proposal marker and every policy with a marker the brief
+// does not use (there the disc is current spend and the cross the
+// approved plan).
+func TestOneMeaningPerMarker(t *testing.T) {
+	if glyphFor(0) != proposedGlyph {
+		t.Errorf("the raw proposal is not drawn with the brief's proposal marker")
+	}
+	seen := map[draw.GlyphStyle]int{}
+	for i := 1; i < len(deciderGlyphs); i++ {
+		g := glyphFor(i)
+		for _, used := range []draw.GlyphStyle{currentGlyph, proposedGlyph, approvedGlyph} {
+			if g.Shape == used.Shape || g.Color == used.Color {
+				t.Errorf("policy %d shares a shape or colour with a brief marker", i)
+			}
+		}
+		if j, ok := seen[g]; ok {
+			t.Errorf("policies %d and %d share a marker", j, i)
+		}
+		seen[g] = i
 	}
 }
