@@ -880,18 +880,6 @@ func (v *view) evidence(d *record.Decision) {
 	}
 }
 
-// number formats a check's metric or threshold: four significant digits,
-// thousands separated from 10,000 up.
-func number(x float64) string {
-	if math.IsNaN(x) {
-		return "n/a"
-	}
-	if math.Abs(x) >= 1e4 && !math.IsInf(x, 0) {
-		return money(x)
-	}
-	return strconv.FormatFloat(x, 'g', 4, 64)
-}
-
 func (v *view) rerun(d *record.Decision) {
 	names := make([]string, 0, len(d.Inputs))
 	for k := range d.Inputs {
