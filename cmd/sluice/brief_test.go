@@ -3,6 +3,8 @@ package main
 import (
 	"bytes"
 	"context"
+	"encoding/json"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -10,6 +12,8 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"sluice/record"
 )
 
 // chromium is Debian's browser package; CI installs it.
@@ -62,5 +66,62 @@ func TestDemoBriefPrints(t *testing.T) {
 		if !strings.Contains(string(html), s) {
 			t.Errorf("the example brief lacks %q", s)
 		}
+	}
+}
+
+// TestDemoBudgetView checks the example brief's budget view against
+// arithmetic: the demo plan keeps the total (budget_change: 0,
+// budget_mode equal), so the total at a change x is (1+x) × 13 weeks ×
+// the sum of current weekly spend; and at x = 0 the allocator's plan is
+// the decision's proposal, so its expected gain is the record's.
+func TestDemoBudgetView(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs the demo; skipped under -short")
+	}
+	dir := t.TempDir()
+	var out, errb bytes.Buffer
+	if code := run([]string{"sluice", "demo", "--out", filepath.Join(dir, "d"), "--quiet"}, &out, &errb); code != 0 {
+		t.Fatalf("demo exited %d: %s", code, errb.String())
+	}
+	var bd briefData
+	raw, err := os.ReadFile(filepath.Join(dir, "d", "brief.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := json.Unmarshal(raw, &bd); err != nil {
+		t.Fatal(err)
+	}
+	body, err := os.ReadFile(filepath.Join(dir, "d", "decision.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rec, err := record.ParseDecision(body, "decision.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var current float64
+	for _, m := range rec.Moves {
+		current += m.Current
+	}
+	if len(bd.Budget) != 5 {
+		t.Fatalf("%d budget points, want 5", len(bd.Budget))
+	}
+	for i, b := range bd.Budget {
+		if b.Error != "" {
+			t.Errorf("budget %+.0f%%: %s", 100*b.Change, b.Error)
+			continue
+		}
+		if want := (1 + budgetSteps[i]) * float64(rec.Horizon) * current; math.Abs(b.Budget-want) > 1e-6*want {
+			t.Errorf("budget %+.0f%%: total %v, want %v", 100*b.Change, b.Budget, want)
+		}
+		if !(b.P05 <= b.ExpectedGain && b.ExpectedGain <= b.P95) {
+			t.Errorf("budget %+.0f%%: expected gain %v outside its band %v to %v", 100*b.Change, b.ExpectedGain, b.P05, b.P95)
+		}
+	}
+	if g, want := bd.Budget[2].ExpectedGain, rec.Proposal.ExpectedGain; math.Abs(g-want) > 1e-6*math.Abs(want) {
+		t.Errorf("at today's budget the expected gain is %v, the proposal's %v", g, want)
+	}
+	if bd.Money == nil || bd.Money.Currency != "EUR" || bd.Money.Margin != 0.65 {
+		t.Errorf("money %+v, want EUR at margin 0.65 (examples/plan.yaml)", bd.Money)
 	}
 }
