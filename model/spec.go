@@ -59,6 +59,7 @@ type SpecFile struct {
 	Period    float64                `yaml:"period_weeks"`
 	Horizon   int                    `yaml:"horizon_weeks"`
 	Starts    int                    `yaml:"starts"`
+	Events    []Event                `yaml:"events"` // holiday and event weeks (events.go)
 }
 
 // Defaults (common practice, no source: typical ranges for weekly media

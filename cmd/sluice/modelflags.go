@@ -21,6 +21,7 @@ func modelFlags() []cli.Flag {
 		&cli.StringFlag{Name: "controls", Usage: "comma-separated control columns"},
 		&cli.StringFlag{Name: "date-column", Usage: "date column (default: \"week\", else the first column)"},
 		&cli.StringFlag{Name: "spec", Usage: "model spec YAML (adstock and saturation kinds, bounds, harmonics, horizon)"},
+		&cli.StringFlag{Name: "events", Usage: "events CSV (name,date): one 0/1 control per holiday or event, 1 in the weeks holding its dates"},
 		&cli.Float64Flag{Name: "value-per-kpi", Value: 1, Usage: "currency per KPI unit, for a KPI counted in units"},
 		&cli.IntFlag{Name: "horizon", Usage: "planning horizon in weeks (default 13, or the spec's)"},
 		&cli.IntFlag{Name: "harmonics", Value: -1, Usage: "Fourier harmonics of the yearly season (default 2, or the spec's)"},
@@ -33,16 +34,18 @@ func modelFlags() []cli.Flag {
 
 // modelInput is a loaded panel and spec with their hashes.
 type modelInput struct {
-	DataPath    string
-	Panel       *model.Panel
-	Spec        model.Spec
-	Design      *model.Design
-	ValuePerKPI float64
-	Seed        uint64
-	Workers     int
-	DataSHA256  string
-	SpecPath    string
-	SpecSHA256  string // "" without a spec file
+	DataPath     string
+	Panel        *model.Panel
+	Spec         model.Spec
+	Design       *model.Design
+	ValuePerKPI  float64
+	Seed         uint64
+	Workers      int
+	DataSHA256   string
+	SpecPath     string
+	SpecSHA256   string // "" without a spec file
+	EventsPath   string // --events file, "" without one
+	EventsSHA256 string
 }
 
 func loadModelInput(o *opts) (*modelInput, error) {
@@ -100,6 +103,13 @@ func loadModelInput(o *opts) (*modelInput, error) {
 	}
 	if s := o.Int("starts"); s != 0 {
 		spec.Starts = s
+	}
+	var specEvents []model.Event
+	if specFile != nil {
+		specEvents = specFile.Events
+	}
+	if in.EventsPath, in.EventsSHA256, err = applyEvents(o, p, &spec, specEvents, specPath); err != nil {
+		return nil, err
 	}
 	if err := spec.Validate("model"); err != nil {
 		return nil, err

@@ -49,7 +49,7 @@ func proposeCommand() *cli.Command {
 		Name:  "propose",
 		Usage: "allocate, gate every move by the policy and write the decision record (DIR/decision.json, DIR/report.html)",
 		Flags: append(decisionFlags(),
-			&cli.StringFlag{Name: "out", Usage: "directory for decision.json and report.html"},
+			&cli.StringFlag{Name: "dir", Usage: "directory for decision.json, report.html, moves.csv and plan.csv (was --out)"},
 			&cli.BoolFlag{Name: "replace-signed", Usage: "move an earlier signed record in DIR aside (decision.<sha>.json) instead of refusing"},
 			&cli.BoolFlag{Name: "json", Usage: "print the decision record instead of the table"},
 		),
@@ -58,9 +58,9 @@ func proposeCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
-			dir := o.String("out")
+			dir := o.String("dir")
 			if dir == "" {
-				return withHint(errors.New("propose needs --out"), "pass --out DIR; decision.json and report.html are written there")
+				return withHint(errors.New("propose needs --dir"), "pass --dir DIR; decision.json, report.html and the CSV files are written there")
 			}
 			if err := guardSigned(dir, o.Bool("replace-signed")); err != nil {
 				return err
@@ -84,6 +84,11 @@ func proposeCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
+			// The spreadsheet files of the decision (exports.go).
+			csvs, err := writeDecisionCSVs(dir, run.rec)
+			if err != nil {
+				return err
+			}
 			if o.Bool("json") {
 				_, err := c.App.Writer.Write(run.bytes)
 				return err
@@ -94,6 +99,7 @@ func proposeCommand() *cli.Command {
 				fmt.Fprintf(c.App.Writer, " and %s", brief)
 			}
 			fmt.Fprintln(c.App.Writer)
+			fmt.Fprintf(c.App.Writer, "for a spreadsheet: %s\n", strings.Join(csvs, ", "))
 			return nil
 		},
 	}
@@ -109,7 +115,7 @@ func guardSigned(dir string, replace bool) error {
 	}
 	if !replace {
 		return withHint(fmt.Errorf("refusing to overwrite %s: it has sign-offs in %s", rec, sigs),
-			"write the new decision to another --out, or pass --replace-signed to move the signed record aside")
+			"write the new decision to another --dir, or pass --replace-signed to move the signed record aside")
 	}
 	b, err := os.ReadFile(rec)
 	if err != nil {
@@ -183,6 +189,9 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	}
 	if in.SpecPath != "" {
 		inputs["spec"] = record.Input{Path: in.SpecPath, SHA256: in.SpecSHA256}
+	}
+	if in.EventsPath != "" {
+		inputs["events"] = record.Input{Path: in.EventsPath, SHA256: in.EventsSHA256}
 	}
 	if err := addInput("plan", planPath); err != nil {
 		return nil, err
