@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"io"
@@ -286,23 +285,4 @@ func printCurvesTable(w io.Writer, s curvesSummary, horizon int) {
 	}
 	tw.Flush()
 	fmt.Fprintln(w, "\nthe bands measure how much the fit moves under resampling; they do not cover a wrong model form")
-}
-
-// writeBandsCSV writes the response bands, one row per channel and spend
-// level.
-func writeBandsCSV(w io.Writer, rb []uncertainty.ChannelResponse) error {
-	cw := csv.NewWriter(w)
-	if err := cw.Write([]string{"channel", "spend", "response_median", "response_p10", "response_p90", "response_p05", "response_p95"}); err != nil {
-		return err
-	}
-	num := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
-	for _, c := range rb {
-		for _, p := range c.Points {
-			if err := cw.Write([]string{c.Name, num(p.Spend), num(p.Median), num(p.P10), num(p.P90), num(p.P05), num(p.P95)}); err != nil {
-				return err
-			}
-		}
-	}
-	cw.Flush()
-	return cw.Error()
 }

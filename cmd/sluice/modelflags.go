@@ -55,7 +55,7 @@ func loadModelInput(o *opts) (*modelInput, error) {
 		return nil, withHint(errors.New("no data file"), "pass --data weekly.csv (or set data: in sluice.yaml)")
 	}
 	if !(in.ValuePerKPI > 0) {
-		return nil, fmt.Errorf("--value-per-kpi %g must be positive", in.ValuePerKPI)
+		return nil, fmt.Errorf("--value-per-kpi %s must be positive", plain(in.ValuePerKPI, 6))
 	}
 	var specFile *model.SpecFile
 	specPath := o.String("spec")
