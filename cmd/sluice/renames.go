@@ -2,7 +2,9 @@ package main
 
 import (
 	"fmt"
+	"os"
 
+	"github.com/spf13/viper"
 	"github.com/urfave/cli/v2"
 )
 
@@ -44,6 +46,14 @@ func applyRenames(cmds []*cli.Command) {
 		c.Before = func(ctx *cli.Context) error {
 			for _, r := range mine {
 				if !ctx.IsSet(r.old) {
+					// A default for the old name in SLUICE_* or sluice.yaml
+					// still counts, with the same note.
+					if v, from, ok := oldDefault(r.old); ok && !ctx.IsSet(r.new) && !hasDefault(r.new) {
+						fmt.Fprintf(ctx.App.ErrWriter, "sluice: note: %s gives %s --%s, now --%s; the old name is read until the next release\n", from, r.command, r.old, r.new)
+						if err := ctx.Set(r.new, v); err != nil {
+							return fmt.Errorf("%s: %s: %w", from, r.old, err)
+						}
+					}
 					continue
 				}
 				if ctx.IsSet(r.new) {
@@ -60,6 +70,29 @@ func applyRenames(cmds []*cli.Command) {
 			return nil
 		}
 	}
+}
+
+// oldDefault is the default SLUICE_* or sluice.yaml gives flag name, and
+// where it comes from.
+func oldDefault(name string) (value, from string, ok bool) {
+	if v, set := os.LookupEnv(envName(name)); set && v != "" {
+		return v, envName(name), true
+	}
+	if _, err := os.Stat(configFile); err != nil {
+		return "", "", false
+	}
+	v := viper.New()
+	v.SetConfigFile(configFile)
+	v.SetConfigType("yaml")
+	if v.ReadInConfig() != nil || !v.IsSet(name) {
+		return "", "", false
+	}
+	return v.GetString(name), configFile, true
+}
+
+func hasDefault(name string) bool {
+	_, _, ok := oldDefault(name)
+	return ok
 }
 
 func hasFlag(c *cli.Command, name string) bool { return flagNamed(c, name) != nil }
