@@ -490,6 +490,8 @@ func TestRefusedBrief(t *testing.T) {
 		"Refuse: none of the 61,000 EUR a week proposed is moved, because no step of the proposal meets the policy.",
 		"The approved plan moves no money, so its gain is zero under every draw",
 		"(no money moves; every channel keeps its current spend)",
+		"kept at current spend: the decision is refused", // beside each channel whose move was proposed
+		"no gain, no loss: 95% of draws gain at least this",
 	} {
 		if !strings.Contains(body, s) {
 			t.Errorf("brief does not say %q", s)

@@ -318,7 +318,10 @@ func sentenceEnd(s string) string { return strings.TrimRight(strings.TrimSpace(s
 func (v *view) figures(d *record.Decision, weeks string) {
 	a, p := d.Risk.Approved, d.Risk.Proposed
 	bad := fmt.Sprintf("a gain, not a loss: %s of draws gain at least this", pct(1-a.DownsideLevel))
-	if a.Downside < 0 {
+	if math.Round(a.Downside) == 0 {
+		bad = fmt.Sprintf("no gain, no loss: %s of draws gain at least this", pct(1-a.DownsideLevel))
+	}
+	if math.Round(a.Downside) < 0 {
 		bad = fmt.Sprintf("a loss: %s of draws lose more than %s", pct(a.DownsideLevel), money(-a.Downside))
 	}
 	v.Figures = []figure{
@@ -420,6 +423,9 @@ func (v *view) moves(d *record.Decision) error {
 	var cs, ps, as []float64
 	for _, m := range d.Moves {
 		setBy, first := settingReason(m, d.Checks)
+		if d.Verdict == gate.Refuse && math.Abs(m.Proposed-m.Current) > 0.5 {
+			setBy, first = "kept at current spend: the decision is refused", -1
+		}
 		row := moveRow{
 			Channel: m.Channel, Current: money(m.Current), Proposed: money(m.Proposed),
 			ChangeProposed: signedMoney(m.Proposed - m.Current),
