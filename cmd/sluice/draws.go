@@ -3,6 +3,7 @@ package main
 import (
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"os/signal"
 	"syscall"
@@ -37,6 +38,19 @@ func loadDraws(in *modelInput, path string) (*uncertainty.Draws, error) {
 		}
 		return nil, err
 	}
+	if got := d.Header.Inputs.LiftsSHA256; got != in.LiftsSHA256 {
+		switch {
+		case in.LiftsSHA256 == "":
+			return nil, withHint(fmt.Errorf("%s was made with lift tests (sha256 %.12s…) in the fit, and no --lifts is given", path, got),
+				"pass the --lifts file the draws were made with, or rerun sluice bootstrap without it")
+		case got == "":
+			return nil, withHint(fmt.Errorf("%s was made without lift tests, but --lifts %s is given", path, in.LiftsPath),
+				"rerun sluice bootstrap with --lifts, so the draws are calibrated like every other fit")
+		default:
+			return nil, withHint(fmt.Errorf("%s was made with other lift tests (sha256 %.12s…) than %s (%.12s…)", path, got, in.LiftsPath, in.LiftsSHA256),
+				"pass the --lifts file the draws were made with, or rerun sluice bootstrap")
+		}
+	}
 	if len(d.Params()) == 0 {
 		return nil, fmt.Errorf("%s: all %d replicates failed (first: %s)", path, len(d.Replicates), d.Replicates[0].Reason)
 	}
@@ -67,11 +81,22 @@ func drawsFor(c *cli.Context, in *modelInput, path string, n int, quiet bool) (*
 		return nil, "", err
 	}
 	d.Header.ToolVersion = version
-	d.Header.Inputs = uncertainty.Inputs{DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256}
+	d.Header.Inputs = uncertainty.Inputs{DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256, LiftsSHA256: in.LiftsSHA256}
+	for _, n := range d.Notes() {
+		printNote(c.App.ErrWriter, n)
+	}
 	if len(d.Params()) == 0 {
 		return nil, "", fmt.Errorf("all %d bootstrap refits failed", n)
 	}
 	return d, "", nil
+}
+
+// printNote writes a bootstrap note as a warning line with its hint.
+func printNote(w io.Writer, n uncertainty.Note) {
+	fmt.Fprintf(w, "warning: %s\n", n.Text)
+	if n.Hint != "" {
+		fmt.Fprintf(w, "hint: %s\n", n.Hint)
+	}
 }
 
 // fullFitParams is the point fit stored in a draws header.

@@ -36,7 +36,6 @@ func decisionFlags() []cli.Flag {
 		&cli.StringFlag{Name: "policy", Value: "standard", Usage: "policy: a preset name (" + strings.Join(policies.Names(), ", ") + ") or a YAML file"},
 		&cli.StringFlag{Name: "draws", Usage: "draws file from sluice bootstrap (command line only); without it a bootstrap runs here"},
 		&cli.IntFlag{Name: "bootstrap-draws", Value: DefaultDecisionDraws, Usage: "replicates of the bootstrap run here when no --draws is given"},
-		&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV: channel,start,end,incremental,std_error"},
 		&cli.StringFlag{Name: "records", Usage: "directory of earlier decision records to reconcile with the data"},
 		&cli.StringFlag{Name: "proposal", Usage: "gate this plan (YAML: channels: {name: weekly spend}) instead of the allocator's"},
 		&cli.StringFlag{Name: "waivers", Usage: "signatures file of an earlier record whose signed waivers apply to this decision"},

@@ -20,7 +20,7 @@ func keygenCommand() *cli.Command {
 		Action: func(c *cli.Context) error {
 			prefix := c.String("prefix")
 			if prefix == "" {
-				return withHint(errors.New("keygen needs --out"), "sluice keygen --out keys/alice")
+				return withHint(errors.New("keygen needs --prefix"), "sluice keygen --prefix keys/alice")
 			}
 			if err := os.MkdirAll(filepath.Dir(prefix), 0o755); err != nil {
 				return err

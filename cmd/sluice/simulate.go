@@ -31,7 +31,7 @@ func simulateCommand() *cli.Command {
 			}
 			path, dir := o.String("truth"), o.String("dir")
 			if path == "" || dir == "" {
-				return withHint(errors.New("simulate needs --truth and --out"), "sluice simulate --truth truth.yaml --out DIR")
+				return withHint(errors.New("simulate needs --truth and --dir"), "sluice simulate --truth truth.yaml --dir DIR")
 			}
 			tr, err := model.LoadTruth(path)
 			if err != nil {
