@@ -79,6 +79,7 @@ type SpecFile struct {
 	Period    float64                `yaml:"period_weeks"`
 	Horizon   int                    `yaml:"horizon_weeks"`
 	Starts    int                    `yaml:"starts"`
+	Events    []Event                `yaml:"events"` // holiday and event weeks (events.go)
 }
 
 // Default boxes (common practice, no source: typical ranges for weekly

@@ -26,6 +26,7 @@ import (
 //	objective: expected          # or quantile:0.1, or cvar:0.05:0.5 (alpha, weight)
 //	margin: 1.0
 //	value_per_kpi: 1.0
+//	currency: EUR                # names the currency of every amount; a label only
 //
 // Channel amounts are weekly spend. Channels the file does not list are
 // bounded only by w >= 0.
@@ -38,6 +39,7 @@ type Plan struct {
 	Objective    Objective
 	Margin       float64
 	ValuePerKPI  float64
+	Currency     string // e.g. "EUR": a label for people, never converted; "" when not given
 
 	source string
 	order  []string              // channel keys in file order
@@ -89,6 +91,7 @@ type planFile struct {
 	Objective    *string                `yaml:"objective"`
 	Margin       *float64               `yaml:"margin"`
 	ValuePerKPI  *float64               `yaml:"value_per_kpi"`
+	Currency     *string                `yaml:"currency"`
 }
 
 type channelFile struct {
@@ -265,6 +268,13 @@ func ParsePlan(data []byte, source string) (*Plan, error) {
 			return nil, bad(v.key, "%s %v must be a positive number", v.key, *v.v)
 		}
 		*v.dst = *v.v
+	}
+	if f.Currency != nil {
+		c := strings.TrimSpace(*f.Currency)
+		if c == "" || len(c) > 12 || strings.ContainsAny(c, "\n\r\t<>&\"'") {
+			return nil, bad("currency", "currency %q: want a short label such as EUR, USD or GBP", *f.Currency)
+		}
+		p.Currency = c
 	}
 	return p, nil
 }

@@ -142,7 +142,7 @@ func TestBriefInBrowser(t *testing.T) {
 	dom, _ := runChromium(t, page, "--dump-dom")
 	doc := parseHTML(t, dom)
 	svgs := byName(doc, "svg")
-	if want := len(in.Curves) + 3; len(svgs) != want {
+	if want := len(in.Curves) + 5; len(svgs) != want {
 		t.Errorf("rendered DOM has %d charts, want %d", len(svgs), want)
 	}
 	for _, s := range svgs {
@@ -225,4 +225,113 @@ func mustRead(t *testing.T, path string) []byte {
 		t.Fatal(err)
 	}
 	return b
+}
+
+// firstScreenCSS paints the three parts page 1 must show (the verdict,
+// the risk figures, the last row of the moves table) in colours the brief
+// never uses. Only backgrounds change, so the layout is the brief's own.
+const firstScreenCSS = `<style>
+.verdict { background: #ff00ff !important; }
+.figures div { background: #00ffff !important; }
+#moves-table tfoot th, #moves-table tfoot td { background: #ffff00 !important; }
+</style></head>`
+
+// TestBriefFirstScreen: in a 1280×800 window (a common laptop viewport;
+// common practice, no source) the decision, the risk figures and the whole
+// moves table are on screen without scrolling.
+func TestBriefFirstScreen(t *testing.T) {
+	needChromium(t)
+	dir := t.TempDir()
+	page := filepath.Join(dir, "marked.html")
+	raw := render(t, testInput())
+	if err := os.WriteFile(page, bytes.Replace(raw, []byte("</head>"), []byte(firstScreenCSS), 1), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	shot := filepath.Join(dir, "first.png")
+	runChromium(t, page, "--screenshot="+shot, "--window-size=1280,800", "--hide-scrollbars")
+	b := mustRead(t, shot)
+	keepForPeople(t, "brief-first-screen.png", b)
+	img, err := png.Decode(bytes.NewReader(b))
+	if err != nil {
+		t.Fatalf("screenshot is not a PNG: %v", err)
+	}
+	for _, c := range []struct {
+		what    string
+		r, g, b uint32
+	}{{"the verdict", 0xff, 0x00, 0xff}, {"the risk figures", 0x00, 0xff, 0xff}, {"the end of the moves table", 0xff, 0xff, 0x00}} {
+		n := countColour(img, c.r, c.g, c.b)
+		// A table row 1,000 px wide and 20 px high is 20,000 pixels; 2,000
+		// leaves room for text over the colour and rules the layout out
+		// only when the part is (nearly) off screen.
+		if n < 2000 {
+			t.Errorf("%s: %d pixels of its marker colour in the first screen, want at least 2,000", c.what, n)
+		}
+	}
+	// The negative control: a window too short for the moves table loses
+	// its last row.
+	short := filepath.Join(dir, "short.png")
+	runChromium(t, page, "--screenshot="+short, "--window-size=1280,400", "--hide-scrollbars")
+	simg, err := png.Decode(bytes.NewReader(mustRead(t, short)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n := countColour(simg, 0xff, 0xff, 0x00); n != 0 {
+		t.Errorf("a 400 px window shows %d pixels of the moves table's last row; the marker check cannot tell", n)
+	}
+}
+
+func countColour(img image.Image, r0, g0, b0 uint32) int {
+	n := 0
+	b := img.Bounds()
+	for y := b.Min.Y; y < b.Max.Y; y++ {
+		for x := b.Min.X; x < b.Max.X; x++ {
+			r, g, bl, _ := img.At(x, y).RGBA()
+			if r>>8 == r0 && g>>8 == g0 && bl>>8 == b0 {
+				n++
+			}
+		}
+	}
+	return n
+}
+
+// pdfPage matches a page object of a PDF: "/Type /Page" and not "/Pages"
+// (ISO 32000-1:2008, 7.7.3.3, "Page Objects").
+var pdfPage = regexp.MustCompile(`/Type\s*/Page[^s]`)
+
+// printedPages prints page to PDF with headless Chromium and counts its
+// pages.
+func printedPages(t *testing.T, page string) int {
+	t.Helper()
+	pdf := filepath.Join(t.TempDir(), "brief.pdf")
+	runChromium(t, page, "--print-to-pdf="+pdf, "--no-pdf-header-footer")
+	b := mustRead(t, pdf)
+	if !bytes.HasPrefix(b, []byte("%PDF-")) {
+		t.Fatalf("%s is not a PDF", pdf)
+	}
+	return len(pdfPage.FindAll(b, -1))
+}
+
+// TestBriefPrints: the invented six-channel decision prints on at most six
+// pages (the issue's budget); the counter itself is checked on a page
+// made to print on exactly three.
+func TestBriefPrints(t *testing.T) {
+	needChromium(t)
+	dir := t.TempDir()
+	page := filepath.Join(dir, "brief.html")
+	if err := report.Write(page, testInput()); err != nil {
+		t.Fatal(err)
+	}
+	if n := printedPages(t, page); n < 1 || n > 6 {
+		t.Errorf("the brief prints on %d pages, want 1 to 6", n)
+	} else {
+		t.Logf("the brief prints on %d pages", n)
+	}
+	three := filepath.Join(dir, "three.html")
+	src := `<!DOCTYPE html><html><head><title>t</title><style>p { break-after: page; }</style></head><body><p>1</p><p>2</p><div>3</div></body></html>`
+	if err := os.WriteFile(three, []byte(src), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if n := printedPages(t, three); n != 3 {
+		t.Errorf("page counter: %d pages for a page made to print on 3", n)
+	}
 }

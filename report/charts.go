@@ -2,7 +2,9 @@ package report
 
 import (
 	"bytes"
+	"cmp"
 	"fmt"
+	"image/color"
 	"math"
 	"slices"
 
@@ -146,7 +148,11 @@ func curveChart(cb CurveBand, horizon int, kpi string) ([]byte, error) {
 	cur, prop, appr := point(cb.Current, currentGlyph), point(cb.Proposed, proposedGlyph), point(cb.Approved, approvedGlyph)
 
 	seen := seenRange{cb.SeenLow, cb.SeenHigh}
-	p.Add(seen, gridLines{x: true, y: true}, poly, line, cur, prop, appr)
+	p.Add(seen, gridLines{x: true, y: true}, poly, line, appr, prop, cur)
+	// Below zero, a strip for the seen range, under the curve; no tick
+	// there.
+	p.Y.Min = -0.08 * p.Y.Max
+	p.Y.Tick.Marker = nonNegative{moneyTicks{}}
 
 	leg := newLegend()
 	leg.Add("median of draws", line)
@@ -155,7 +161,7 @@ func curveChart(cb CurveBand, horizon int, kpi string) ([]byte, error) {
 	leg.Add("current", cur)
 	leg.Add("proposed", prop)
 	leg.Add("approved", appr)
-	return svgWithLegend(p, leg, 6.4*vg.Inch, 2.9*vg.Inch)
+	return svgWithLegend(p, leg, 6.4*vg.Inch, 2.6*vg.Inch)
 }
 
 // movesChart draws each channel's move on one row: a dashed black line
@@ -178,25 +184,34 @@ func movesChart(names []string, current, proposed, approved []float64) ([]byte, 
 
 	propSty := draw.LineStyle{Color: black, Width: vg.Points(1.2), Dashes: []vg.Length{vg.Points(4), vg.Points(2.5)}}
 	apprSty := draw.LineStyle{Color: vermillion, Width: vg.Points(3)}
+	// The proposal runs just above the channel's row and the approved
+	// plan just below, both from current spend, so that neither marker
+	// hides the other when they fall on the same spend.
+	const off = 0.17
 	var legendProp, legendAppr *plotter.Line
 	var cur, prop, appr plotter.XYs
 	for k := range n {
 		y := float64(n - 1 - k)
-		lp, err := plotter.NewLine(plotter.XYs{{X: current[k], Y: y}, {X: proposed[k], Y: y}})
+		lp, err := plotter.NewLine(plotter.XYs{{X: current[k], Y: y + off}, {X: proposed[k], Y: y + off}})
 		if err != nil {
 			return nil, fmt.Errorf("report: moves: %w", err)
 		}
 		lp.LineStyle = propSty
-		la, err := plotter.NewLine(plotter.XYs{{X: current[k], Y: y}, {X: approved[k], Y: y}})
+		la, err := plotter.NewLine(plotter.XYs{{X: current[k], Y: y - off}, {X: approved[k], Y: y - off}})
 		if err != nil {
 			return nil, fmt.Errorf("report: moves: %w", err)
 		}
 		la.LineStyle = apprSty
-		p.Add(lp, la)
+		tick, err := plotter.NewLine(plotter.XYs{{X: current[k], Y: y - off}, {X: current[k], Y: y + off}})
+		if err != nil {
+			return nil, fmt.Errorf("report: moves: %w", err)
+		}
+		tick.LineStyle = draw.LineStyle{Color: black, Width: vg.Points(0.8)}
+		p.Add(tick, lp, la)
 		legendProp, legendAppr = lp, la
 		cur = append(cur, plotter.XY{X: current[k], Y: y})
-		prop = append(prop, plotter.XY{X: proposed[k], Y: y})
-		appr = append(appr, plotter.XY{X: approved[k], Y: y})
+		prop = append(prop, plotter.XY{X: proposed[k], Y: y + off})
+		appr = append(appr, plotter.XY{X: approved[k], Y: y - off})
 	}
 	scatter := func(xy plotter.XYs, g draw.GlyphStyle) (*plotter.Scatter, error) {
 		s, err := plotter.NewScatter(xy)
@@ -218,13 +233,13 @@ func movesChart(names []string, current, proposed, approved []float64) ([]byte, 
 	if err != nil {
 		return nil, err
 	}
-	p.Add(sc, sp, sa)
+	p.Add(sp, sa, sc)
 
 	leg := newLegend()
 	leg.Add("current", sc)
 	leg.Add("proposed", legendProp, sp)
 	leg.Add("approved", legendAppr, sa)
-	h := vg.Length(n)*0.42*vg.Inch + 0.8*vg.Inch
+	h := vg.Length(n)*0.27*vg.Inch + 0.6*vg.Inch
 	return svgWithLegend(p, leg, 7*vg.Inch, h)
 }
 
@@ -275,7 +290,7 @@ func gainChart(gains []float64, horizon int, downside, downsideLevel, expected f
 	p := newPlot()
 	p.X.Label.Text = fmt.Sprintf("gain of the approved plan over %s", plural(horizon, "week", "weeks"))
 	p.Y.Label.Text = "number of draws"
-	p.Y.Tick.Marker = plot.DefaultTicks{}
+	p.Y.Tick.Marker = countTicks{}
 	edges, counts := gainBins(gains)
 	losses, wins := bins{edges: edges, counts: counts, loss: true}, bins{edges: edges, counts: counts}
 	zero := vline{0, draw.LineStyle{Color: black, Width: vg.Points(1.4)}}
@@ -288,9 +303,9 @@ func gainChart(gains []float64, horizon int, downside, downsideLevel, expected f
 	leg.Add("draws losing money", losses)
 	leg.Add("draws gaining", wins)
 	leg.Add("break-even (0)", zero)
-	leg.Add(fmt.Sprintf("%s: %s", percentileName(downsideLevel), money(downside)), down)
-	leg.Add("expected gain: "+money(expected), mean)
-	return svgWithLegend(p, leg, 7*vg.Inch, 2.9*vg.Inch)
+	leg.Add(fmt.Sprintf("%s: %s", percentileName(downsideLevel), signedMoney(downside)), down)
+	leg.Add("expected gain: "+signedMoney(expected), mean)
+	return svgWithLegend(p, leg, 7*vg.Inch, 2.3*vg.Inch)
 }
 
 // holdoutChart draws the holdout weeks: the actual KPI against the
@@ -347,5 +362,344 @@ func holdoutChart(h *Holdout, kpi string) ([]byte, error) {
 	if poly != nil {
 		leg.Add("forecast band", poly)
 	}
-	return svgWithLegend(p, leg, 7*vg.Inch, 2.9*vg.Inch)
+	return svgWithLegend(p, leg, 7*vg.Inch, 2.0*vg.Inch)
+}
+
+// stackColours fill the contribution chart's layers: the base in light
+// grey, then the Okabe–Ito colours in turn (Wong 2011), each layer also
+// outlined in white so that neighbours stay apart in greyscale.
+var stackColours = []color.NRGBA{
+	{0xE6, 0x9F, 0x00, 0xff}, // orange
+	{0x56, 0xB4, 0xE9, 0xff}, // sky blue
+	{0x00, 0x9E, 0x73, 0xff}, // bluish green
+	{0xF0, 0xE4, 0x42, 0xff}, // yellow
+	{0x00, 0x72, 0xB2, 0xff}, // blue
+	{0xD5, 0x5E, 0x00, 0xff}, // vermillion
+	{0xCC, 0x79, 0xA7, 0xff}, // reddish purple
+}
+
+var baseFill = color.NRGBA{0xC8, 0xC8, 0xC8, 0xff}
+
+// contributionChart stacks the base and each channel's fitted weekly KPI
+// over the weeks of the data, with the actual KPI as a line on top.
+func contributionChart(c *Contributions, kpi string) ([]byte, error) {
+	n := len(c.Weeks)
+	if !finiteAll(append([][]float64{c.Actual, c.Base}, c.Media...)...) {
+		return nil, fmt.Errorf("report: contributions must be finite numbers")
+	}
+	p := newPlot()
+	p.X.Label.Text = "week"
+	p.Y.Label.Text = "weekly " + kpi
+	p.X.Tick.Marker = weekTicks(c.Weeks)
+	p.X.Min, p.X.Max = 0, float64(n-1)
+	p.Add(gridLines{y: true})
+	lower := make([]float64, n)
+	upper := make([]float64, n)
+	type entry struct {
+		name string
+		th   plot.Thumbnailer
+	}
+	var entries []entry
+	layer := func(vals []float64, fill color.Color, name string) error {
+		for t := range n {
+			upper[t] = lower[t] + vals[t]
+		}
+		pts := make(plotter.XYs, 0, 2*n)
+		for t := range n {
+			pts = append(pts, plotter.XY{X: float64(t), Y: upper[t]})
+		}
+		for t := n - 1; t >= 0; t-- {
+			pts = append(pts, plotter.XY{X: float64(t), Y: lower[t]})
+		}
+		poly, err := plotter.NewPolygon(pts)
+		if err != nil {
+			return fmt.Errorf("report: contributions: %w", err)
+		}
+		poly.Color = fill
+		poly.LineStyle = draw.LineStyle{Color: white, Width: vg.Points(0.5)}
+		p.Add(poly)
+		entries = append(entries, entry{name, poly})
+		copy(lower, upper)
+		return nil
+	}
+	if err := layer(c.Base, baseFill, "base"); err != nil {
+		return nil, err
+	}
+	for k, name := range c.Channels {
+		if err := layer(c.Media[k], stackColours[k%len(stackColours)], name); err != nil {
+			return nil, err
+		}
+	}
+	act, err := plotter.NewLine(series(c.Actual))
+	if err != nil {
+		return nil, fmt.Errorf("report: contributions: %w", err)
+	}
+	act.LineStyle = draw.LineStyle{Color: black, Width: vg.Points(0.9)}
+	p.Add(act)
+	leg := newLegend()
+	leg.Add("actual", act)
+	// The legend lists the layers top down, as they are stacked.
+	for i := len(entries) - 1; i >= 0; i-- {
+		leg.Add(entries[i].name, entries[i].th)
+	}
+	return svgWithLegend(p, leg, 7*vg.Inch, 2.2*vg.Inch)
+}
+
+func series(ys []float64) plotter.XYs {
+	xy := make(plotter.XYs, len(ys))
+	for i, y := range ys {
+		xy[i] = plotter.XY{X: float64(i), Y: y}
+	}
+	return xy
+}
+
+// fitChart draws the actual KPI against the fitted (base plus channels)
+// and, below it on the same weeks, the residuals.
+func fitChart(c *Contributions, kpi string) ([]byte, error) {
+	n := len(c.Weeks)
+	fitted := make([]float64, n)
+	resid := make([]float64, n)
+	for t := range n {
+		f := c.Base[t]
+		for k := range c.Channels {
+			f += c.Media[k][t]
+		}
+		fitted[t], resid[t] = f, c.Actual[t]-f
+	}
+	if !finiteAll(fitted, c.Actual) {
+		return nil, fmt.Errorf("report: fit: values must be finite numbers")
+	}
+	top := newPlot()
+	top.Y.Label.Text = "weekly " + kpi
+	top.X.Tick.Marker = weekTicks(c.Weeks)
+	top.X.Min, top.X.Max = 0, float64(n-1)
+	top.Add(gridLines{y: true})
+	act, err := plotter.NewLine(series(c.Actual))
+	if err != nil {
+		return nil, fmt.Errorf("report: fit: %w", err)
+	}
+	act.LineStyle = draw.LineStyle{Color: black, Width: vg.Points(1)}
+	fit, err := plotter.NewLine(series(fitted))
+	if err != nil {
+		return nil, fmt.Errorf("report: fit: %w", err)
+	}
+	fit.LineStyle = draw.LineStyle{Color: blue, Width: vg.Points(1.2), Dashes: []vg.Length{vg.Points(4), vg.Points(2)}}
+	top.Add(act, fit)
+
+	bot := newPlot()
+	bot.X.Label.Text = "week"
+	bot.Y.Label.Text = "residual"
+	bot.X.Tick.Marker = weekTicks(c.Weeks)
+	bot.X.Min, bot.X.Max = 0, float64(n-1)
+	zero := hline{0, draw.LineStyle{Color: black, Width: vg.Points(0.8)}}
+	stems := residualStems(resid)
+	bot.Add(gridLines{y: true}, stems, zero)
+
+	leg := newLegend()
+	leg.Add("actual", act)
+	leg.Add("fitted", fit)
+	leg.Add("residual", stems)
+
+	w, h := 7*vg.Inch, 2.9*vg.Inch
+	cv := vgsvg.New(w, h)
+	dc := draw.New(cv)
+	lw := leg.Rectangle(dc).Size().X + vg.Points(8)
+	plots := [][]*plot.Plot{{top}, {bot}}
+	tiles := draw.Tiles{Rows: 2, Cols: 1, PadY: vg.Points(4)}
+	area := draw.Crop(dc, 0, -lw, 0, 0)
+	canvases := plot.Align(plots, tiles, area) // same x axis width in both panels
+	top.Draw(canvases[0][0])
+	bot.Draw(canvases[1][0])
+	leg.Draw(draw.Crop(dc, w-lw+vg.Points(6), 0, 0, -vg.Points(6)))
+	var buf bytes.Buffer
+	if _, err := cv.WriteTo(&buf); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
+}
+
+// deciderGlyphs: the raw proposal keeps the brief's proposal marker (an
+// orange triangle), since it is the proposal; each policy takes a shape
+// and colour the brief does not use (the black disc is current spend
+// there, the vermillion cross the approved plan), so a marker means one
+// thing on every page.
+var deciderGlyphs = []draw.GlyphStyle{
+	proposedGlyph,
+	{Color: blue, Radius: vg.Points(4), Shape: marker{square}},
+	{Color: bluishGreen, Radius: vg.Points(4.5), Shape: marker{diamond}},
+	{Color: purple, Radius: vg.Points(4), Shape: marker{ring}},
+	{Color: skyBlue, Radius: vg.Points(4), Shape: marker{square}},
+}
+
+func glyphFor(i int) draw.GlyphStyle { return deciderGlyphs[i%len(deciderGlyphs)] }
+
+// shareTicks label an axis of shares as percentages.
+type shareTicks struct{}
+
+func (shareTicks) Ticks(lo, hi float64) []plot.Tick {
+	ts := plot.DefaultTicks{}.Ticks(lo, hi)
+	for i := range ts {
+		if ts[i].Label != "" {
+			ts[i].Label = pct(ts[i].Value)
+		}
+	}
+	return ts
+}
+
+// tradeoffChart puts each decider at (share of the oracle's gain, chance of
+// a loss), labelled by name. It returns nil when no summary is finite.
+func tradeoffChart(ds []decider) ([]byte, error) {
+	p := newPlot()
+	p.X.Label.Text = "share of the oracle's gain captured"
+	p.Y.Label.Text = "chance of a losing decision"
+	p.X.Tick.Marker, p.Y.Tick.Marker = nonNegative{shareTicks{}}, nonNegative{shareTicks{}}
+	p.Y.Min, p.Y.Max = 0, 0.05
+	p.X.Min, p.X.Max = 0, 0.05
+	p.Add(gridLines{x: true, y: true})
+	leg := newLegend()
+	var pts plotter.XYs
+	var names []string
+	for i, d := range ds {
+		x, y := d.sum.OracleShare, d.sum.PLoss
+		if !finiteAll([]float64{x, y}) {
+			continue
+		}
+		s, err := plotter.NewScatter(plotter.XYs{{X: x, Y: y}})
+		if err != nil {
+			return nil, fmt.Errorf("report: trade-off: %w", err)
+		}
+		s.GlyphStyle = glyphFor(i)
+		p.Add(s)
+		leg.Add(d.name, s)
+		pts = append(pts, plotter.XY{X: x, Y: y})
+		names = append(names, d.name)
+		p.X.Min, p.X.Max = min(p.X.Min, x), max(p.X.Max, x)
+		p.Y.Max = max(p.Y.Max, y)
+	}
+	if len(pts) == 0 {
+		return nil, nil
+	}
+	// Neighbours in x take turns above and below their marker, so that
+	// close markers' labels do not run into each other.
+	order := make([]int, len(pts))
+	for i := range order {
+		order[i] = i
+	}
+	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(pts[a].X, pts[b].X) })
+	for rank, i := range order {
+		l, err := plotter.NewLabels(plotter.XYLabels{XYs: pts[i : i+1], Labels: names[i : i+1]})
+		if err != nil {
+			return nil, fmt.Errorf("report: trade-off: %w", err)
+		}
+		l.TextStyle[0].Font = font.From(sans, legendSize)
+		l.Offset = vg.Point{X: vg.Points(7), Y: vg.Points(4)}
+		if rank%2 == 1 {
+			l.Offset.Y = -vg.Points(12)
+		}
+		p.Add(l)
+	}
+	// Room for the labels right of the markers and above the highest,
+	// and below 0% and left of 0%, so that a decider that never loses, or
+	// captures nothing, is drawn clear of the axes rather than on them.
+	span := p.X.Max - p.X.Min
+	p.X.Max += 0.35 * span
+	p.X.Min -= 0.04 * span
+	p.Y.Max *= 1.15
+	p.Y.Min = -0.08 * p.Y.Max
+	return svgWithLegend(p, leg, 7*vg.Inch, 3.2*vg.Inch)
+}
+
+// gainsChart draws one horizontal box plot of the true gains per decider,
+// first decider at the top, with zero marked. It returns nil when no
+// decider has a gain.
+func gainsChart(ds []decider, horizon int) ([]byte, error) {
+	p := newPlot()
+	p.X.Label.Text = fmt.Sprintf("true gain over %s", plural(horizon, "week", "weeks"))
+	n := len(ds)
+	names := make([]string, n)
+	drawn := false
+	var bars []plot.Plotter // drawn over the break-even line
+	for i, d := range ds {
+		names[n-1-i] = d.name
+		if len(d.gains) == 0 {
+			continue
+		}
+		if !finiteAll(d.gains) {
+			return nil, fmt.Errorf("report: gains of %s must be finite numbers", d.name)
+		}
+		b, err := plotter.NewBoxPlot(vg.Points(16), float64(n-1-i), plotter.Values(d.gains))
+		if err != nil {
+			return nil, fmt.Errorf("report: gains of %s: %w", d.name, err)
+		}
+		b.Horizontal = true
+		// A tinted box with a black outline: visible on white and in
+		// greyscale; the names on the axis tell the boxes apart.
+		b.FillColor = bandFill
+		b.BoxStyle = draw.LineStyle{Color: black, Width: vg.Points(1.2)}
+		b.MedianStyle = draw.LineStyle{Color: black, Width: vg.Points(2.4)}
+		b.WhiskerStyle = draw.LineStyle{Color: black, Width: vg.Points(0.8)}
+		b.GlyphStyle = draw.GlyphStyle{Color: black, Radius: vg.Points(2), Shape: draw.RingGlyph{}}
+		p.Add(b)
+		if slices.Min(d.gains) == slices.Max(d.gains) {
+			// Every world gave the same gain (a policy that refused them
+			// all gains 0 everywhere): the box has no width, so a bar
+			// marks the value.
+			bars = append(bars, pointBar{x: d.gains[0], y: float64(n - 1 - i)})
+		}
+		drawn = true
+	}
+	if !drawn {
+		return nil, nil
+	}
+	p.NominalY(names...)
+	p.Y.Tick.Label.Font = font.From(sans, labelSize)
+	p.Y.Padding = vg.Points(10)
+	p.X.Min, p.X.Max = math.Min(p.X.Min, 0), math.Max(p.X.Max, 0)
+	zero := vline{0, draw.LineStyle{Color: black, Width: vg.Points(1.4)}}
+	p.Add(gridLines{x: true}, zero)
+	p.Add(bars...)
+	leg := newLegend()
+	leg.Add("break-even (0)", zero)
+	leg.Add("middle half of worlds", boxThumb{})
+	if len(bars) > 0 {
+		leg.Add("every world the same", pointBar{})
+	}
+	h := vg.Length(n)*0.45*vg.Inch + 0.8*vg.Inch
+	return svgWithLegend(p, leg, 7*vg.Inch, h)
+}
+
+// pointBar is a short thick vertical bar at (x, y): a distribution with no
+// spread, in the box plot's row.
+type pointBar struct{ x, y float64 }
+
+func (b pointBar) Plot(c draw.Canvas, p *plot.Plot) {
+	trX, trY := p.Transforms(&c)
+	b.draw(&c, vg.Point{X: trX(b.x), Y: trY(b.y)})
+}
+
+// draw a 7×18 point bar centred on pt (no taller than the canvas): grey,
+// outlined in black, wider than the break-even line it may sit on.
+func (pointBar) draw(c *draw.Canvas, pt vg.Point) {
+	w, h := vg.Points(3.5), min(vg.Points(9), (c.Max.Y-c.Min.Y)/2)
+	pts := []vg.Point{{X: pt.X - w, Y: pt.Y - h}, {X: pt.X + w, Y: pt.Y - h}, {X: pt.X + w, Y: pt.Y + h}, {X: pt.X - w, Y: pt.Y + h}}
+	c.FillPolygon(seenHatch, pts)
+	c.StrokeLines(draw.LineStyle{Color: black, Width: vg.Points(1.2)}, append(pts, pts[0]))
+}
+
+func (b pointBar) Thumbnail(c *draw.Canvas) {
+	b.draw(c, vg.Point{X: (c.Min.X + c.Max.X) / 2, Y: (c.Min.Y + c.Max.Y) / 2})
+}
+
+func (b pointBar) DataRange() (xmin, xmax, ymin, ymax float64) { return b.x, b.x, b.y, b.y }
+
+// boxThumb is the legend's picture of a box.
+type boxThumb struct{}
+
+func (boxThumb) Thumbnail(c *draw.Canvas) {
+	r := c.Rectangle
+	inset := (r.Max.Y - r.Min.Y) / 6
+	r.Min.Y, r.Max.Y = r.Min.Y+inset, r.Max.Y-inset
+	pts := []vg.Point{r.Min, {X: r.Max.X, Y: r.Min.Y}, r.Max, {X: r.Min.X, Y: r.Max.Y}}
+	c.FillPolygon(bandFill, pts)
+	c.StrokeLines(draw.LineStyle{Color: black, Width: vg.Points(1.2)}, append(pts, r.Min))
 }

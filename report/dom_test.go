@@ -107,3 +107,16 @@ func tagCounts(doc *html.Node) map[string]int {
 	}
 	return m
 }
+
+// sectionByID returns the element with the id, failing the test if there
+// is not exactly one.
+func sectionByID(t testing.TB, doc *html.Node, id string) *html.Node {
+	t.Helper()
+	found := elements(doc, func(e *html.Node) bool { v, _ := attr(e, "id"); return v == id })
+	if len(found) != 1 {
+		t.Fatalf("%d elements with id %q, want 1", len(found), id)
+	}
+	return found[0]
+}
+
+func tableByID(t testing.TB, doc *html.Node, id string) *html.Node { return sectionByID(t, doc, id) }

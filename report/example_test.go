@@ -38,6 +38,6 @@ func ExampleRender() {
 	fmt.Println(strings.Count(s, "<svg"), "chart")
 	// Output:
 	// Example Co.: paid-media budget decision
-	// Approved: move 5,000 a week as proposed, 65,000 over the 13 weeks.
+	// Approve: move 5,000 a week as proposed, 65,000 over the 13 weeks.
 	// 1 chart
 }

@@ -40,8 +40,9 @@ const (
 	testApproved = 38000.0
 	// testSentence is the verdict the brief must write for the test data:
 	// the figures above and the first reason of testRecord.
-	testSentence = "Approved in part: move 38,000 a week of the 61,000 proposed; " +
-		"the rest is held back because the proposal as a whole has a 23% chance of losing money (the policy allows 10%)."
+	testSentence = "Downsize: move 38,000 EUR a week of the 61,000 proposed. " +
+		"Held back: search, social, tv, online video and radio move part of the way. " +
+		"The approved plan is also scaled down because the proposal as a whole has a 23% chance of losing money (the policy allows 10%)."
 	// testScriptDetail is a check detail that tries to inject markup.
 	testScriptDetail = `bias <script>alert("x")</script> in weeks 3 & 4`
 )
@@ -146,9 +147,43 @@ func testCurve(name string, current, proposed, approved float64) report.CurveBan
 	return cb
 }
 
+// Invented contributions: 26 weeks, a base of 300,000 with a seasonal
+// swing, two channels; the actual is their sum plus a fixed residual
+// pattern (+5,000, -5,000, 0 in turn), so the residual SD is known in
+// closed form: sqrt(2/3)·5,000 = 4,082.48.
+func testContributions() *report.Contributions {
+	c := &report.Contributions{Channels: []string{"search", "tv"}, Media: [][]float64{nil, nil}}
+	day := time.Date(2025, 1, 6, 0, 0, 0, 0, time.UTC)
+	resid := []float64{5000, -5000, 0}
+	for t := range 26 {
+		base := 300000 + 20000*math.Sin(float64(t)/4)
+		s, tv := 40000.0+float64(t)*100, 60000.0
+		c.Weeks = append(c.Weeks, day.AddDate(0, 0, 7*t).Format("2006-01-02"))
+		c.Base = append(c.Base, base)
+		c.Media[0] = append(c.Media[0], s)
+		c.Media[1] = append(c.Media[1], tv)
+		c.Actual = append(c.Actual, base+s+tv+resid[t%3])
+	}
+	return c
+}
+
+// testBudget is an invented budget view: at +10% no plan is possible.
+func testBudget() []report.BudgetPoint {
+	return []report.BudgetPoint{
+		{Change: -0.1, Budget: 2_700_000, ExpectedGain: 60000, P05: -20000, P95: 140000, MarginalReturn: 0.42, Known: true},
+		{Change: -0.05, Budget: 2_850_000, ExpectedGain: 80000, P05: -9000, P95: 170000, MarginalReturn: 0.31, Known: true},
+		{Change: 0, Budget: 3_000_000, ExpectedGain: 150000, P05: -61000, P95: 380000, MarginalReturn: 0.18, Known: true},
+		{Change: 0.05, Budget: 3_150_000, ExpectedGain: 140000, P05: -70000, P95: 390000, MarginalReturn: -0.06, Known: false},
+		{Change: 0.1, Error: "the plan's constraints cannot all hold"},
+	}
+}
+
 // testInput is the full brief input over the invented decision.
 func testInput() report.Input {
-	in := report.Input{Record: testRecord(), Signed: []string{"finance"}, Title: "Test Co. (test data)"}
+	in := report.Input{Record: testRecord(), Signed: []string{"finance"}, Title: "Test Co. (test data)",
+		Money:         &report.Money{Currency: "EUR", Margin: 0.65, ValuePerKPI: 1},
+		Signatures:    []report.Signature{{Role: "finance", KeyID: "0123456789abcdef", Signer: "finance_partner", SignedAt: "2026-01-02 09:30:00"}},
+		Contributions: testContributions(), Budget: testBudget()}
 	for _, m := range testMoves {
 		in.Curves = append(in.Curves, testCurve(m.name, m.current, m.proposed, m.approved))
 	}

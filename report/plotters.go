@@ -3,6 +3,8 @@ package report
 import (
 	"image/color"
 	"math"
+	"slices"
+	"strconv"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/vg"
@@ -20,6 +22,9 @@ var (
 	vermillion  = color.NRGBA{0xD5, 0x5E, 0x00, 0xff}
 	white       = color.NRGBA{0xff, 0xff, 0xff, 0xff}
 	bandFill    = color.NRGBA{0x56, 0xB4, 0xE9, 0x66} // sky blue, 40% opaque
+	skyBlue     = color.NRGBA{0x56, 0xB4, 0xE9, 0xff}
+	bluishGreen = color.NRGBA{0x00, 0x9E, 0x73, 0xff}
+	purple      = color.NRGBA{0xCC, 0x79, 0xA7, 0xff} // reddish purple
 	seenFill    = color.NRGBA{0xEE, 0xEE, 0xEE, 0xff}
 	seenHatch   = color.NRGBA{0x76, 0x76, 0x76, 0xff}
 	gridColour  = color.NRGBA{0xDD, 0xDD, 0xDD, 0xff}
@@ -29,14 +34,16 @@ var (
 	markerWidth = vg.Points(2)
 )
 
-// The three positions of a move, always drawn the same way: current spend
-// a black disc, the proposal an orange triangle outlined in black (orange
-// alone is too light against white for WCAG 2.1's 3:1 for graphics), the
-// approved plan a vermillion cross drawn last, so it stays visible on top
-// of the others.
+// The three positions of a move, always drawn the same way, in the brief
+// and on the rehearsal page: current spend a small black disc, the
+// proposal a large orange triangle outlined in black (orange alone is too
+// light against white for WCAG 2.1's 3:1 for graphics), the approved plan
+// a vermillion cross. They are drawn largest first (triangle, cross,
+// disc), so that where two fall on the same spend both stay visible: the
+// triangle's corners reach past the cross, the cross's arms past the disc.
 var (
-	currentGlyph  = draw.GlyphStyle{Color: black, Radius: vg.Points(3.5), Shape: marker{disc}}
-	proposedGlyph = draw.GlyphStyle{Color: orange, Radius: vg.Points(4.5), Shape: marker{triangle}}
+	currentGlyph  = draw.GlyphStyle{Color: black, Radius: vg.Points(2.6), Shape: marker{disc}}
+	proposedGlyph = draw.GlyphStyle{Color: orange, Radius: vg.Points(5.5), Shape: marker{triangle}}
 	approvedGlyph = draw.GlyphStyle{Color: vermillion, Radius: vg.Points(4.5), Shape: marker{cross}}
 )
 
@@ -46,6 +53,9 @@ const (
 	disc shape = iota
 	triangle
 	cross
+	square
+	diamond
+	ring
 )
 
 // marker is a glyph with a white halo, so it reads on top of lines and
@@ -72,13 +82,39 @@ func (m marker) DrawGlyph(c *draw.Canvas, sty draw.GlyphStyle, pt vg.Point) {
 			{X: pt.X + r*0.8660254, Y: pt.Y - r/2},
 			{X: pt.X, Y: pt.Y + r},
 		})
+	case square, diamond, ring:
+		r := sty.Radius
+		var pts []vg.Point
+		if m.shape == diamond {
+			pts = []vg.Point{{X: pt.X, Y: pt.Y + r*1.2}, {X: pt.X + r, Y: pt.Y}, {X: pt.X, Y: pt.Y - r*1.2}, {X: pt.X - r, Y: pt.Y}}
+		} else {
+			pts = []vg.Point{{X: pt.X - r, Y: pt.Y - r}, {X: pt.X + r, Y: pt.Y - r}, {X: pt.X + r, Y: pt.Y + r}, {X: pt.X - r, Y: pt.Y + r}}
+		}
+		if m.shape == ring {
+			c.StrokeLines(draw.LineStyle{Color: white, Width: vg.Points(4)}, circle(pt, r))
+			c.StrokeLines(draw.LineStyle{Color: sty.Color, Width: vg.Points(2)}, circle(pt, r))
+			return
+		}
+		c.StrokeLines(draw.LineStyle{Color: white, Width: vg.Points(2.4)}, append(pts, pts[0]))
+		c.FillPolygon(sty.Color, pts)
+		c.StrokeLines(draw.LineStyle{Color: black, Width: vg.Points(0.8)}, append(pts, pts[0]))
 	default:
-		halo.Radius += vg.Points(1.2)
+		halo.Radius += vg.Points(0.8)
 		c.SetColor(white)
 		draw.CircleGlyph{}.DrawGlyph(c, halo, pt)
 		c.SetColor(sty.Color)
 		draw.CircleGlyph{}.DrawGlyph(c, sty, pt)
 	}
+}
+
+// circle approximates a circle of radius r around pt by 24 segments.
+func circle(pt vg.Point, r vg.Length) []vg.Point {
+	pts := make([]vg.Point, 25)
+	for i := range pts {
+		a := 2 * math.Pi * float64(i) / 24
+		pts[i] = vg.Point{X: pt.X + r*vg.Length(math.Cos(a)), Y: pt.Y + r*vg.Length(math.Sin(a))}
+	}
+	return pts
 }
 
 func (marker) cross(c *draw.Canvas, clr color.Color, radius, width vg.Length, pt vg.Point) {
@@ -108,19 +144,35 @@ func hatch(c *draw.Canvas, r vg.Rectangle, sty draw.LineStyle, gap vg.Length) {
 	}
 }
 
-// seenRange shades, with a light fill and a grey hatch, the weekly spend
-// the data has seen, over the full height of the plot.
+// seenRange marks, with a light fill and a grey hatch, the weekly spend
+// the data has seen: a strip along the bottom of the plot, below the
+// curve it describes, so that the hatch never runs over the curve or its
+// band (the chart's y axis starts below zero to make room for it).
 type seenRange struct{ low, high float64 }
 
 func (s seenRange) Plot(c draw.Canvas, p *plot.Plot) {
-	trX, _ := p.Transforms(&c)
+	trX, trY := p.Transforms(&c)
 	lo := max(c.Min.X, trX(max(s.low, p.X.Min)))
 	hi := min(c.Max.X, trX(min(s.high, p.X.Max)))
-	if hi <= lo {
+	top := min(c.Max.Y, trY(0)-vg.Points(1.5))
+	if hi <= lo || top <= c.Min.Y {
 		return
 	}
-	r := vg.Rectangle{Min: vg.Point{X: lo, Y: c.Min.Y}, Max: vg.Point{X: hi, Y: c.Max.Y}}
+	r := vg.Rectangle{Min: vg.Point{X: lo, Y: c.Min.Y}, Max: vg.Point{X: hi, Y: top}}
 	s.draw(&c, r)
+}
+
+// nonNegative keeps a tick marker's ticks at zero and above.
+type nonNegative struct{ plot.Ticker }
+
+func (n nonNegative) Ticks(lo, hi float64) []plot.Tick {
+	var out []plot.Tick
+	for _, t := range n.Ticker.Ticks(lo, hi) {
+		if t.Value >= 0 {
+			out = append(out, t)
+		}
+	}
+	return out
 }
 
 func (s seenRange) draw(c *draw.Canvas, r vg.Rectangle) {
@@ -218,6 +270,75 @@ func (moneyTicks) Ticks(lo, hi float64) []plot.Tick {
 		}
 	}
 	return ts
+}
+
+// countTicks label a count axis with whole numbers only: gonum's default
+// positions, without those that are not integers (a count of 2.5 draws
+// means nothing), and with a step of at least 1.
+type countTicks struct{}
+
+func (countTicks) Ticks(lo, hi float64) []plot.Tick {
+	var out []plot.Tick
+	for _, t := range (plot.DefaultTicks{}).Ticks(lo, hi) {
+		if t.Value != math.Trunc(t.Value) {
+			continue
+		}
+		if t.Label != "" {
+			t.Label = strconv.FormatFloat(t.Value, 'f', 0, 64)
+		}
+		out = append(out, t)
+	}
+	if len(out) == 0 || !slices.ContainsFunc(out, func(t plot.Tick) bool { return t.Label != "" }) {
+		// A range under one: label its whole ends.
+		for v := math.Ceil(lo); v <= math.Floor(hi); v++ {
+			out = append(out, plot.Tick{Value: v, Label: strconv.FormatFloat(v, 'f', 0, 64)})
+		}
+	}
+	return out
+}
+
+// hline is a horizontal line across the plot at y.
+type hline struct {
+	y   float64
+	sty draw.LineStyle
+}
+
+func (l hline) Plot(c draw.Canvas, p *plot.Plot) {
+	_, trY := p.Transforms(&c)
+	y := trY(l.y)
+	if y < c.Min.Y || y > c.Max.Y {
+		return
+	}
+	c.StrokeLine2(l.sty, c.Min.X, y, c.Max.X, y)
+}
+
+func (l hline) DataRange() (xmin, xmax, ymin, ymax float64) {
+	return math.Inf(1), math.Inf(-1), l.y, l.y
+}
+
+// residualStems draws each week's residual as a thin vertical stem from
+// zero, so that runs on one side of zero show.
+type residualStems []float64
+
+func (r residualStems) Plot(c draw.Canvas, p *plot.Plot) {
+	trX, trY := p.Transforms(&c)
+	sty := draw.LineStyle{Color: blue, Width: vg.Points(1)}
+	for t, v := range r {
+		c.StrokeLine2(sty, trX(float64(t)), trY(0), trX(float64(t)), trY(v))
+	}
+}
+
+func (r residualStems) Thumbnail(c *draw.Canvas) {
+	x := (c.Min.X + c.Max.X) / 2
+	c.StrokeLine2(draw.LineStyle{Color: blue, Width: vg.Points(1)}, x, c.Min.Y, x, c.Max.Y)
+}
+
+func (r residualStems) DataRange() (xmin, xmax, ymin, ymax float64) {
+	ymin, ymax = 0, 0
+	for _, v := range r {
+		ymin, ymax = min(ymin, v), max(ymax, v)
+	}
+	return 0, float64(len(r) - 1), ymin, ymax
 }
 
 // weekTicks label about six of the holdout weeks, indexed from 0.

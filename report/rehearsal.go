@@ -2,21 +2,13 @@ package report
 
 import (
 	"bytes"
-	"cmp"
 	"errors"
 	"fmt"
 	"html/template"
 	"io"
-	"math"
 	"slices"
 	"strconv"
 	"strings"
-
-	"gonum.org/v1/plot"
-	"gonum.org/v1/plot/font"
-	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg"
-	"gonum.org/v1/plot/vg/draw"
 
 	"sluice/internal/atomicfile"
 	"sluice/record"
@@ -212,133 +204,4 @@ func tradeoffWords(ds []decider) string {
 	}
 	s := strings.Join(w, "; ") + "."
 	return strings.ToUpper(s[:1]) + s[1:] // decider names start with ASCII "raw"
-}
-
-// deciderGlyphs: the raw proposal keeps the brief's proposal marker (an
-// orange triangle); policies take the other shapes and colours in turn.
-var deciderGlyphs = []draw.GlyphStyle{
-	proposedGlyph,
-	{Color: blue, Radius: vg.Points(4), Shape: marker{disc}},
-	approvedGlyph,
-	{Color: black, Radius: vg.Points(3.5), Shape: marker{disc}},
-}
-
-func glyphFor(i int) draw.GlyphStyle { return deciderGlyphs[i%len(deciderGlyphs)] }
-
-// shareTicks label an axis of shares as percentages.
-type shareTicks struct{}
-
-func (shareTicks) Ticks(lo, hi float64) []plot.Tick {
-	ts := plot.DefaultTicks{}.Ticks(lo, hi)
-	for i := range ts {
-		if ts[i].Label != "" {
-			ts[i].Label = pct(ts[i].Value)
-		}
-	}
-	return ts
-}
-
-// tradeoffChart puts each decider at (share of the oracle's gain, chance of
-// a loss), labelled by name. It returns nil when no summary is finite.
-func tradeoffChart(ds []decider) ([]byte, error) {
-	p := newPlot()
-	p.X.Label.Text = "share of the oracle's gain captured"
-	p.Y.Label.Text = "chance of a losing decision"
-	p.X.Tick.Marker, p.Y.Tick.Marker = shareTicks{}, shareTicks{}
-	p.Y.Min, p.Y.Max = 0, 0.05
-	p.X.Min, p.X.Max = 0, 0.05
-	p.Add(gridLines{x: true, y: true})
-	leg := newLegend()
-	var pts plotter.XYs
-	var names []string
-	for i, d := range ds {
-		x, y := d.sum.OracleShare, d.sum.PLoss
-		if !finiteAll([]float64{x, y}) {
-			continue
-		}
-		s, err := plotter.NewScatter(plotter.XYs{{X: x, Y: y}})
-		if err != nil {
-			return nil, fmt.Errorf("report: trade-off: %w", err)
-		}
-		s.GlyphStyle = glyphFor(i)
-		p.Add(s)
-		leg.Add(d.name, s)
-		pts = append(pts, plotter.XY{X: x, Y: y})
-		names = append(names, d.name)
-		p.X.Min, p.X.Max = min(p.X.Min, x), max(p.X.Max, x)
-		p.Y.Max = max(p.Y.Max, y)
-	}
-	if len(pts) == 0 {
-		return nil, nil
-	}
-	// Neighbours in x take turns above and below their marker, so that
-	// close markers' labels do not run into each other.
-	order := make([]int, len(pts))
-	for i := range order {
-		order[i] = i
-	}
-	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(pts[a].X, pts[b].X) })
-	for rank, i := range order {
-		l, err := plotter.NewLabels(plotter.XYLabels{XYs: pts[i : i+1], Labels: names[i : i+1]})
-		if err != nil {
-			return nil, fmt.Errorf("report: trade-off: %w", err)
-		}
-		l.TextStyle[0].Font = font.From(sans, legendSize)
-		l.Offset = vg.Point{X: vg.Points(7), Y: vg.Points(4)}
-		if rank%2 == 1 {
-			l.Offset.Y = -vg.Points(12)
-		}
-		p.Add(l)
-	}
-	// Room for the labels right of the markers and above the highest.
-	span := p.X.Max - p.X.Min
-	p.X.Max += 0.35 * span
-	p.Y.Max *= 1.15
-	return svgWithLegend(p, leg, 7*vg.Inch, 3.2*vg.Inch)
-}
-
-// gainsChart draws one horizontal box plot of the true gains per decider,
-// first decider at the top, with zero marked. It returns nil when no
-// decider has a gain.
-func gainsChart(ds []decider, horizon int) ([]byte, error) {
-	p := newPlot()
-	p.X.Label.Text = fmt.Sprintf("true gain over %s", plural(horizon, "week", "weeks"))
-	n := len(ds)
-	names := make([]string, n)
-	drawn := false
-	for i, d := range ds {
-		names[n-1-i] = d.name
-		if len(d.gains) == 0 {
-			continue
-		}
-		if !finiteAll(d.gains) {
-			return nil, fmt.Errorf("report: gains of %s must be finite numbers", d.name)
-		}
-		b, err := plotter.NewBoxPlot(vg.Points(16), float64(n-1-i), plotter.Values(d.gains))
-		if err != nil {
-			return nil, fmt.Errorf("report: gains of %s: %w", d.name, err)
-		}
-		b.Horizontal = true
-		// Black on white: the names on the axis tell the boxes apart.
-		b.FillColor = nil
-		b.BoxStyle = draw.LineStyle{Color: black, Width: vg.Points(1.2)}
-		b.MedianStyle = draw.LineStyle{Color: black, Width: vg.Points(2)}
-		b.WhiskerStyle = draw.LineStyle{Color: black, Width: vg.Points(0.8)}
-		b.GlyphStyle = draw.GlyphStyle{Color: black, Radius: vg.Points(2), Shape: draw.RingGlyph{}}
-		p.Add(b)
-		drawn = true
-	}
-	if !drawn {
-		return nil, nil
-	}
-	p.NominalY(names...)
-	p.Y.Tick.Label.Font = font.From(sans, labelSize)
-	p.Y.Padding = vg.Points(10)
-	p.X.Min, p.X.Max = math.Min(p.X.Min, 0), math.Max(p.X.Max, 0)
-	zero := vline{0, draw.LineStyle{Color: black, Width: vg.Points(1.4)}}
-	p.Add(gridLines{x: true}, zero)
-	leg := newLegend()
-	leg.Add("break-even (0)", zero)
-	h := vg.Length(n)*0.45*vg.Inch + 0.8*vg.Inch
-	return svgWithLegend(p, leg, 7*vg.Inch, h)
 }

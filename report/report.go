@@ -49,14 +49,67 @@ type Holdout struct {
 	Actual, Forecast, Low, High []float64
 }
 
+// Money says what the brief's amounts mean: the currency they are in and
+// how KPI becomes profit. The gain of a plan is, over the horizon,
+// Margin × ValuePerKPI × (extra KPI) − (extra spend), against keeping
+// current spend (optimize.Economics).
+type Money struct {
+	Currency    string  `json:"currency,omitempty"` // e.g. "EUR"; "" when the plan names none
+	Margin      float64 `json:"margin"`             // share of KPI value that is profit
+	ValuePerKPI float64 `json:"value_per_kpi"`      // currency per KPI unit
+}
+
+// Signature is one valid sign-off on the record, for the sign-off table.
+type Signature struct {
+	Role     string `json:"role"`
+	KeyID    string `json:"key_id"`    // the signing key's fingerprint (record.KeyID)
+	Signer   string `json:"signer"`    // who holds the key, as the policy lists it
+	SignedAt string `json:"signed_at"` // UTC, "" when the sign-off did not record it
+}
+
+// Contributions split the fitted KPI of every week of the data into the
+// base (intercept, trend, season, controls) and each channel's part; the
+// fitted KPI is their sum.
+type Contributions struct {
+	Weeks    []string    `json:"weeks"` // ISO dates
+	Actual   []float64   `json:"actual"`
+	Base     []float64   `json:"base"`
+	Channels []string    `json:"channels"`
+	Media    [][]float64 `json:"media"` // per channel, per week
+}
+
+// BudgetPoint is the allocator's plan at one total budget, judged over
+// the draws like the decision itself (before the policy's gate).
+type BudgetPoint struct {
+	Change       float64 `json:"change"` // against the status quo's total: -0.1 for -10%
+	Budget       float64 `json:"budget"` // total spend over the horizon
+	ExpectedGain float64 `json:"expected_gain"`
+	P05          float64 `json:"p05"`
+	P95          float64 `json:"p95"`
+	// MarginalReturn is the profit, net of the spend itself, that one more
+	// unit of weekly budget returns at this plan (the allocator's budget
+	// multiplier); Known is false when the allocator could not confirm it.
+	MarginalReturn float64 `json:"marginal_return"`
+	Known          bool    `json:"marginal_known"`
+	// Error says why the allocator found no plan at this budget (the
+	// plan's constraints cannot all hold there); the figures are then 0.
+	Error string `json:"error,omitempty"`
+}
+
 // Input is everything the brief shows.
 type Input struct {
-	Record  *record.Decision
-	Signed  []string    // roles that have signed (from the signatures file); may be empty
-	Curves  []CurveBand // one per channel
-	Gains   []float64   // gain of the approved plan under each draw, currency over the horizon
-	Holdout *Holdout    // may be nil
-	Title   string      // e.g. the company or brand; "" gives a generic title
+	Record     *record.Decision
+	Signed     []string    // roles that have signed (from the signatures file); may be empty
+	Signatures []Signature // the valid sign-offs, for the sign-off table; may be empty
+	Curves     []CurveBand // one per channel
+	Gains      []float64   // gain of the approved plan under each draw, currency over the horizon
+	Holdout    *Holdout    // may be nil
+	Title      string      // e.g. the company or brand; "" gives a generic title
+	Money      *Money      // nil: currency unnamed, margin and value per KPI unknown to the brief
+	// Contributions, when not nil, draws the base and channels over time
+	// and the actual against the fitted KPI with its residuals.
+	Contributions *Contributions
+	Budget        []BudgetPoint // the budget view; may be empty
 	// RecordSHA256 is the hex SHA-256 of the record file's exact bytes. The
 	// brief names it in one marked place, read by `sluice verify --brief`:
 	// <meta name="sluice-record-sha256" content="HEX"> in the head and the
@@ -106,6 +159,17 @@ func checkLengths(in Input) {
 		n := len(c.Spend)
 		if len(c.P10) != n || len(c.P50) != n || len(c.P90) != n {
 			panic("report: curve " + c.Channel + ": spend, P10, P50 and P90 differ in length")
+		}
+	}
+	if c := in.Contributions; c != nil {
+		n := len(c.Weeks)
+		if len(c.Actual) != n || len(c.Base) != n || len(c.Media) != len(c.Channels) {
+			panic("report: contributions: weeks, actual, base and channels differ in length")
+		}
+		for _, m := range c.Media {
+			if len(m) != n {
+				panic("report: contributions: a channel's series differs in length from the weeks")
+			}
 		}
 	}
 	if h := in.Holdout; h != nil {

@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -43,16 +44,19 @@ func TestBriefStructure(t *testing.T) {
 	t.Run("headings", func(t *testing.T) {
 		want := []string{
 			"h1 Test Co. (test data): paid-media budget decision",
-			"h2 The decision", "h3 Why",
+			"h2 The decision",
 			"h2 What we ask you to sign",
-			"h2 The moves", "h3 Current, proposed and approved spend", "h3 Why moves were held back",
 			"h2 Risk of the approved plan",
+			"h2 What a different budget would buy",
+			"h2 The moves in detail", "h3 Why moves were held back",
+			"h2 How the model explains the past", "h3 Contributions over time", "h3 Actual against fitted",
+			"h2 Forecast of weeks the model did not see",
 			"h2 Response curves",
 		}
 		for _, m := range testMoves {
 			want = append(want, "h3 "+m.name) // the channel's name, escaped on the way in, as it was
 		}
-		want = append(want, "h2 Forecast of weeks the model did not see", "h2 The evidence", "h2 Rerunning this decision")
+		want = append(want, "h2 The evidence", "h2 Rerunning this decision")
 		var got []string
 		level := 0
 		for _, h := range byTag(doc, atom.H1, atom.H2, atom.H3, atom.H4, atom.H5, atom.H6) {
@@ -89,25 +93,35 @@ func TestBriefStructure(t *testing.T) {
 				t.Errorf("header cell %q has scope %q, want col", text(th), s)
 			}
 		}
-		wantHead := []string{"Family", "Check", "Scope", "Status", "Metric", "Threshold", "Explanation", "Policy"}
+		wantHead := []string{"Check: what it asks", "Status", "Channel", "What was found", "What the policy did"}
 		if !slices.Equal(head, wantHead) {
 			t.Errorf("evidence header %q, want %q", head, wantHead)
 		}
-		// Failures first, then warnings, then passes; the status is a word.
-		var status, names []string
+		// Failures first, then warnings; the passed checks are counted,
+		// not listed; the status is a word.
+		var status, names, scopes []string
 		for _, tr := range byTag(byTag(tab, atom.Tbody)[0], atom.Tr) {
 			cells := elements(tr, func(e *html.Node) bool { return e.DataAtom == atom.Td || e.DataAtom == atom.Th })
-			status = append(status, text(cells[3]))
-			names = append(names, text(cells[1]))
+			status = append(status, text(cells[1]))
+			names = append(names, text(cells[0]))
+			scopes = append(scopes, text(cells[2]))
 		}
-		wantStatus := []string{"FAIL", "WARN", "WARN", "PASS", "PASS", "PASS"}
+		wantStatus := []string{"FAILED", "WARNING", "WARNING"}
 		if !slices.Equal(status, wantStatus) {
 			t.Errorf("statuses %q, want %q", status, wantStatus)
 		}
-		// Stable within a status: record order.
-		wantNames := []string{"lift_agreement", "holdout_mape", "residual_bias", "recovery_coverage", "stability_beta", "past_forecast"}
-		if !slices.Equal(names, wantNames) {
-			t.Errorf("checks %q, want %q", names, wantNames)
+		// Stable within a status: record order; each with its meaning.
+		wantNames := []string{"lift_agreement", "holdout_mape", "residual_bias"}
+		for i, n := range names {
+			if i >= len(wantNames) || !strings.HasPrefix(n, wantNames[i]) || len(n) < len(wantNames[i])+10 {
+				t.Errorf("check %d is %q, want %s followed by its meaning", i, n, wantNames[i])
+			}
+		}
+		if want := []string{"online video", "all channels", "all channels"}; !slices.Equal(scopes, want) {
+			t.Errorf("channels %q, want %q", scopes, want)
+		}
+		if body := bodyText(doc); !strings.Contains(body, "6 checks: 1 failed, 2 warned, 3 passed (not listed).") {
+			t.Errorf("passed checks are not collapsed into a count")
 		}
 	})
 
@@ -127,8 +141,8 @@ func TestBriefStructure(t *testing.T) {
 
 	t.Run("charts", func(t *testing.T) {
 		svgs := byName(doc, "svg")
-		if want := len(in.Curves) + 3; len(svgs) != want {
-			t.Errorf("%d charts, want %d (a curve per channel, moves, gains, holdout)", len(svgs), want)
+		if want := len(in.Curves) + 5; len(svgs) != want {
+			t.Errorf("%d charts, want %d (a curve per channel, moves, gains, holdout, contributions, fit)", len(svgs), want)
 		}
 		for _, s := range svgs {
 			if s.Namespace != "svg" {
@@ -203,13 +217,101 @@ func TestBriefStructure(t *testing.T) {
 			t.Errorf("check detail %q not shown as text", testScriptDetail)
 		}
 		for _, s := range []string{
-			"38,000 a week", "494,000 over the 13 weeks", // money moved, per week and over the horizon
-			"+90,000", "90% of draws between -4,800 and 190,000", // expected gain and its interval
-			"7.2%", // chance of a loss
+			// Money defined once, at the top: currency, what a gain is, which weeks.
+			"Amounts are in EUR; spend is per week unless said otherwise. A gain is profit: margin 65% × revenue − spend, over the 13 weeks from the week of 2026-01-05",
+			"38,000 EUR", "494,000 over the 13 weeks", // money moved, per week and over the horizon
+			"+90,000 EUR", "90% of draws -4,800 to +190,000", // expected gain and its interval
+			"7.2%",                                                   // chance of a loss
+			"-4,800 EUR", "a loss: 5% of draws lose more than 4,800", // the bad case, a loss here
 			"1 of 2 required sign-offs given; still needed: cmo.",
-			"SIGNED", "NOT YET SIGNED",
+			"SIGNED", "NOT YET",
+			"0123456789abcdef", "finance_partner", "2026-01-02 09:30:00", // who signed, with which key, when
+			"Evidence: 3 of 6 checks passed; 1 failed and 2 warned",
 			"20260101", "sluice test-0.0.0", fakeHash("data"), fakeHash("draws"),
 		} {
+			if !strings.Contains(body, s) {
+				t.Errorf("brief does not say %q", s)
+			}
+		}
+	})
+
+	t.Run("first page", func(t *testing.T) {
+		// The decision, the moves and the risk come before anything else.
+		dec := sectionByID(t, doc, "decision")
+		for _, id := range []string{"moves-table"} {
+			if len(elements(dec, func(e *html.Node) bool { v, _ := attr(e, "id"); return v == id })) != 1 {
+				t.Errorf("#%s is not in the decision section", id)
+			}
+		}
+		if n := len(elements(dec, func(e *html.Node) bool { c, _ := attr(e, "class"); return c == "figures" })); n != 1 {
+			t.Errorf("%d risk figures in the decision section, want 1", n)
+		}
+		// Each row of the moves table names its channel and says what set
+		// its approved spend.
+		rows := byTag(byTag(sectionByID(t, doc, "decision"), atom.Tbody)[0], atom.Tr)
+		if len(rows) != len(testMoves) {
+			t.Fatalf("%d rows in the moves table, want %d", len(rows), len(testMoves))
+		}
+		for i, tr := range rows {
+			cells := elements(tr, func(e *html.Node) bool { return e.DataAtom == atom.Td || e.DataAtom == atom.Th })
+			if got := text(cells[0]); got != testMoves[i].name {
+				t.Errorf("row %d is %q, want %q", i, got, testMoves[i].name)
+			}
+			if text(cells[len(cells)-1]) == "" {
+				t.Errorf("row %s says nothing of what set its approved spend", testMoves[i].name)
+			}
+		}
+	})
+
+	t.Run("budget view", func(t *testing.T) {
+		tab := tableByID(t, doc, "budget-table")
+		var rows [][]string
+		for _, tr := range byTag(byTag(tab, atom.Tbody)[0], atom.Tr) {
+			var r []string
+			for _, c := range elements(tr, func(e *html.Node) bool { return e.DataAtom == atom.Td || e.DataAtom == atom.Th }) {
+				r = append(r, text(c))
+			}
+			rows = append(rows, r)
+		}
+		want := [][]string{
+			{"-10%", "2,700,000", "207,692", "+60,000", "-20,000 to +140,000", "+0.42 (returns 1.42)"},
+			{"-5%", "2,850,000", "219,231", "+80,000", "-9,000 to +170,000", "+0.31 (returns 1.31)"},
+			{"0% (this decision's budget)", "3,000,000", "230,769", "+150,000", "-61,000 to +380,000", "+0.18 (returns 1.18)"},
+			{"+5%", "3,150,000", "242,308", "+140,000", "-70,000 to +390,000", "not confirmed"},
+			{"+10%", "—", "—", "no plan", "—", "the plan's constraints cannot all hold at this budget"},
+		}
+		if !slices.EqualFunc(rows, want, slices.Equal) {
+			t.Errorf("budget rows\n got %q\nwant %q", rows, want)
+		}
+	})
+
+	t.Run("risk table", func(t *testing.T) {
+		// The downside at the 5th percentile is the 5th percentile row:
+		// one number, shown once.
+		var labels []string
+		for _, th := range byTag(byTag(tableByID(t, doc, "risk-table"), atom.Tbody)[0], atom.Th) {
+			labels = append(labels, text(th))
+		}
+		if slices.ContainsFunc(labels, func(l string) bool { return strings.HasPrefix(l, "Downside") }) ||
+			!slices.Contains(labels, "Gain at the 5th percentile (the policy's downside)") {
+			t.Errorf("risk rows %q: want the 5th percentile once, named as the policy's downside", labels)
+		}
+	})
+
+	t.Run("model charts", func(t *testing.T) {
+		body := bodyText(doc)
+		// Base and channel shares over the 26 invented weeks, and the
+		// residual RMS in closed form: the pattern (+5,000, -5,000, 0)
+		// over 26 weeks has 18 non-zero residuals, sqrt(18/26)·5,000 =
+		// 4,160.25, written to three significant digits.
+		c := testContributions()
+		var base, total float64
+		for t := range c.Weeks {
+			base += c.Base[t]
+			total += c.Base[t] + c.Media[0][t] + c.Media[1][t]
+		}
+		share := strconv.FormatFloat(math.Round(base/total*1000)/10, 'f', -1, 64) + "%"
+		for _, s := range []string{"the base is " + share + " of the fitted revenue", "Residual SD 4,160"} {
 			if !strings.Contains(body, s) {
 				t.Errorf("brief does not say %q", s)
 			}
@@ -230,41 +332,57 @@ func TestBriefDeterministic(t *testing.T) {
 // figures of the invented decision.
 func TestVerdictSentence(t *testing.T) {
 	tests := []struct {
-		name string
-		edit func(d *record.Decision)
-		want string
+		name  string
+		edit  func(d *record.Decision)
+		badge string
+		want  string
 	}{
-		{"downsize", func(*record.Decision) {}, testSentence},
+		{"downsize", func(*record.Decision) {}, "DOWNSIZE", "Downsize: move 38,000 a week of the 61,000 proposed. Held back: search, social, tv, online video and radio move part of the way. The approved plan is also scaled down because the proposal as a whole has a 23% chance of losing money (the policy allows 10%)."},
 		{"approve", func(d *record.Decision) {
 			d.Verdict = gate.Approve
 			d.Risk.Approved = d.Risk.Proposed
-		}, "Approved: move 61,000 a week as proposed, 793,000 over the 13 weeks."},
+		}, "APPROVE", "Approve: move 61,000 a week as proposed, 793,000 over the 13 weeks."},
 		{"refuse", func(d *record.Decision) {
 			d.Verdict = gate.Refuse
 			d.Reasons = []string{"check lift_agreement (lift) failed: the lift test found half the modelled effect; the policy refuses any move when a lift check failed"}
-		}, "Refused: none of the 61,000 a week proposed is moved, because check lift_agreement (lift) failed: the lift test found half the modelled effect; the policy refuses any move when a lift check failed."},
+		}, "REFUSE", "Refuse: none of the 61,000 a week proposed is moved, because check lift_agreement (lift) failed: the lift test found half the modelled effect; the policy refuses any move when a lift check failed."},
 		{"refuse, nothing proposed", func(d *record.Decision) {
 			d.Verdict = gate.Refuse
 			d.Risk.Proposed.MovedPerWeek = 0
 			d.Reasons = []string{"the proposal moves no money; there is nothing to approve"}
-		}, "Refused: the proposal moves no money; there is nothing to approve."},
-		{"downsize without a whole-plan reason", func(d *record.Decision) {
+		}, "REFUSE", "Refuse: the proposal moves no money; there is nothing to approve."},
+		{"downsize, channels kept at current spend", func(d *record.Decision) {
 			d.Reasons = nil
-		}, "Approved in part: move 38,000 a week of the 61,000 proposed; the rest is held back because " + testRecord().Moves[3].Reasons[0] + "."},
+			d.Moves[0].Approved = d.Moves[0].Current
+			d.Moves[2].Approved = d.Moves[2].Current
+		}, "DOWNSIZE", "Downsize: move 38,000 a week of the 61,000 proposed. Held back: search and tv keep current spend; social, online video and radio move part of the way."},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
 			in := report.Input{Record: testRecord()}
 			tt.edit(in.Record)
 			doc := parseHTML(t, render(t, in))
-			var got string
+			var got, badge string
 			for _, s := range byTag(doc, atom.Span) {
 				if c, _ := attr(s, "class"); c == "sentence" {
 					got = text(s)
 				}
+				if c, _ := attr(s, "class"); c == "detail" {
+					got += " " + text(s)
+				}
+			}
+			for _, s := range byTag(doc, atom.Strong) {
+				if c, _ := attr(s, "class"); c == "badge" {
+					badge = text(s)
+				}
 			}
 			if got != tt.want {
 				t.Errorf("sentence\n got %q\nwant %q", got, tt.want)
+			}
+			// One vocabulary with the terminal, which prints the verdict
+			// upper-cased (cmd/sluice printDecision: "verdict: DOWNSIZE").
+			if badge != tt.badge || badge != strings.ToUpper(string(in.Record.Verdict)) {
+				t.Errorf("badge %q, want %q", badge, tt.badge)
 			}
 		})
 	}
@@ -364,14 +482,16 @@ func TestRefusedBrief(t *testing.T) {
 		in.Gains[i] = 0
 	}
 	doc := parseHTML(t, render(t, in))
-	if got, want := len(byName(doc, "svg")), len(in.Curves)+2; got != want {
+	if got, want := len(byName(doc, "svg")), len(in.Curves)+4; got != want {
 		t.Errorf("%d charts, want %d (no gain distribution)", got, want)
 	}
 	body := bodyText(doc)
 	for _, s := range []string{
-		"Refused: none of the 61,000 a week proposed is moved, because no step of the proposal meets the policy.",
+		"Refuse: none of the 61,000 EUR a week proposed is moved, because no step of the proposal meets the policy.",
 		"The approved plan moves no money, so its gain is zero under every draw",
 		"(no money moves; every channel keeps its current spend)",
+		"kept at current spend: the decision is refused", // beside each channel whose move was proposed
+		"no gain, no loss: 95% of draws gain at least this",
 	} {
 		if !strings.Contains(body, s) {
 			t.Errorf("brief does not say %q", s)
@@ -380,16 +500,34 @@ func TestRefusedBrief(t *testing.T) {
 	if strings.Contains(body, "On its own") {
 		t.Error("a refused brief offers a safe step")
 	}
-	// The sentence's reason is not repeated in the Why list; the warning is.
-	var why []string
+	// The sentence's reason is not repeated in a Why list, and the
+	// warning is in the evidence table with its meaning, not there.
 	for _, ul := range byTag(doc, atom.Ul) {
 		if p := ul.Parent; p != nil && p.DataAtom == atom.Div {
-			for _, li := range byTag(ul, atom.Li) {
-				why = append(why, text(li))
-			}
+			t.Errorf("a Why list %q repeats the sentence or the evidence", text(ul))
 		}
 	}
-	if want := d.Reasons[1:]; !slices.Equal(why, want) {
-		t.Errorf("Why list %q, want %q", why, want)
+}
+
+// TestBadCaseTile: a positive 5th-percentile gain reads as a gain, with
+// its sign, never as a loss (the "DOWNSIDE 100,054").
+func TestBadCaseTile(t *testing.T) {
+	in := testInput()
+	a := &in.Record.Risk.Approved
+	a.Downside, a.P05, a.PLoss = 100054, 100054, 0
+	doc := parseHTML(t, render(t, in))
+	var tile string
+	for _, div := range byTag(sectionByID(t, doc, "decision"), atom.Div) {
+		if dt := byTag(div, atom.Dt); len(dt) == 1 && strings.HasPrefix(text(dt[0]), "Bad case") {
+			tile = text(div)
+		}
+	}
+	for _, want := range []string{"Bad case: 5th percentile", "+100,054 EUR", "a gain, not a loss: 95% of draws gain at least this"} {
+		if !strings.Contains(tile, want) {
+			t.Errorf("bad-case tile %q does not say %q", tile, want)
+		}
+	}
+	if strings.Contains(strings.ToLower(tile), "downside") {
+		t.Errorf("bad-case tile %q calls a gain a downside", tile)
 	}
 }

@@ -142,7 +142,7 @@ func printAllocation(w io.Writer, a allocateOutput) {
 	if !a.KKT.OK {
 		ok = "FAILS"
 	}
-	fmt.Fprintf(w, "optimality check %s (largest violation %.2g): %s; %d of %d starts agreed; %s\n", ok, a.KKT.MaxViolation, a.KKT.Detail, a.Agreed, a.Starts, a.Status)
+	fmt.Fprintf(w, "optimality check %s (largest violation %s): %s; %d of %d starts agreed; %s\n", ok, plain(a.KKT.MaxViolation, 2), a.KKT.Detail, a.Agreed, a.Starts, a.Status)
 	fmt.Fprintln(w, "this is a proposal: `sluice propose` sizes each move to what the evidence supports")
 }
 

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"io"
@@ -29,7 +28,7 @@ func bootstrapCommand() *cli.Command {
 			"Replicate i depends only on --seed and i, so --shard K/N jobs merged with `sluice merge`\n" +
 			"give exactly the file of one run. The format is described in uncertainty/DRAWS.md.",
 		Flags: append(modelFlags(),
-			&cli.IntFlag{Name: "draws", Value: uncertainty.DefaultDraws, Usage: "replicates of the whole run (all shards)"},
+			&cli.IntFlag{Name: "bootstrap-draws", Value: uncertainty.DefaultDraws, Usage: "replicates of the whole run (all shards); was --draws"},
 			&cli.StringFlag{Name: "method", Value: string(uncertainty.MovingBlock), Usage: "residual resampling: block (moving-block), stationary or wild"},
 			&cli.StringFlag{Name: "block-length", Value: "auto", Usage: "block length (mean length for stationary): auto (AR(1) plug-in rule on the full fit's residuals, capped) or a number"},
 			&cli.IntFlag{Name: "refit-starts", Value: uncertainty.DefaultRefitStarts, Usage: "starts of each replicate's refit: the warm start, then seeded random probes (1: warm only, the cheapest)"},
@@ -58,7 +57,7 @@ func bootstrapCommand() *cli.Command {
 			if err != nil {
 				return withHint(err, "e.g. --shard 2/8 for the second of eight jobs")
 			}
-			draws := o.Int("draws")
+			draws := o.Int("bootstrap-draws")
 			if draws < 1 {
 				return fmt.Errorf("--draws %d must be at least 1", draws)
 			}
@@ -127,7 +126,7 @@ func reportDraws(stdout, stderr io.Writer, path string, d *uncertainty.Draws, qu
 	if !quiet {
 		bl := "none (wild)"
 		if h.Method != uncertainty.Wild {
-			bl = fmt.Sprintf("%.3g", h.BlockLength)
+			bl = plain(h.BlockLength, 3)
 			if h.BlockLengthAuto {
 				bl += " (AR(1) plug-in rule)"
 			}
@@ -264,19 +263,19 @@ func mergeCommand() *cli.Command {
 func curvesCommand() *cli.Command {
 	return &cli.Command{
 		Name:  "curves",
-		Usage: "summarize a draws file: per-channel ROI and marginal ROI bands, response-curve bands (--csv)",
+		Usage: "summarize a draws file: per-channel ROI and marginal ROI bands, response-curve bands as CSV (--out bands.csv)",
 		Flags: append(modelFlags(),
 			&cli.StringFlag{Name: "draws", Usage: "draws file written by sluice bootstrap (command line only)"},
 			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
-			&cli.StringFlag{Name: "csv", Usage: "write response-curve bands over a weekly spend grid to this CSV file"},
+			&cli.StringFlag{Name: "out", Usage: "write response-curve bands over a weekly spend grid to this CSV file (was --csv)"},
 		),
 		Action: func(c *cli.Context) error {
 			o, err := newOpts(c)
 			if err != nil {
 				return err
 			}
-			// Read from the command line only: in sluice.yaml "draws" is
-			// bootstrap's replicate count.
+			// Read from the command line only, as in every command that
+			// reads a draws file.
 			path := c.String("draws")
 			if path == "" {
 				return withHint(errors.New("curves needs --draws"), "pass --draws draws.jsonl (written by sluice bootstrap)")
@@ -291,9 +290,9 @@ func curvesCommand() *cli.Command {
 			}
 			params := d.Params()
 			bands := uncertainty.SummarizeDraws(in.Design, params, in.ValuePerKPI)
-			if csvPath := o.String("csv"); csvPath != "" {
+			if csvPath := o.String("out"); csvPath != "" {
 				rb := uncertainty.ResponseBands(in.Design, params, in.Spec.Horizon)
-				if err := atomicfile.WriteFunc(csvPath, 0o644, func(w io.Writer) error { return writeBandsCSV(w, rb) }); err != nil {
+				if err := atomicfile.WriteFunc(csvPath, 0o644, func(w io.Writer) error { return writeBandsCSVPlain(w, rb) }); err != nil {
 					return err
 				}
 			}
@@ -322,8 +321,8 @@ type curvesSummary struct {
 func printCurvesTable(w io.Writer, s curvesSummary, horizon int) {
 	fmt.Fprintf(w, "ROI over the data and marginal ROI at current spend (%d-week horizon), over %d successful of %d bootstrap draws (%d failed)\n",
 		horizon, s.Draws-s.Failed, s.Draws, s.Failed)
-	fmt.Fprintf(w, "%s bootstrap, block length %.3g, seed %d; quantiles Hyndman–Fan type %d; intervals are percentile intervals\n\n",
-		s.Method, s.BlockLength, s.Seed, s.QuantileType)
+	fmt.Fprintf(w, "%s bootstrap, block length %s, seed %d; quantiles Hyndman–Fan type %d; intervals are percentile intervals\n\n",
+		s.Method, plain(s.BlockLength, 3), s.Seed, s.QuantileType)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintln(tw, "channel\tROI median\t80% interval\t90% interval\tmROI median\t80% interval\t90% interval\t")
 	for _, c := range s.Channels {
@@ -333,23 +332,4 @@ func printCurvesTable(w io.Writer, s curvesSummary, horizon int) {
 	}
 	tw.Flush()
 	fmt.Fprintln(w, "\nthe bands measure how much the fit moves under resampling; they do not cover a wrong model form")
-}
-
-// writeBandsCSV writes the response bands, one row per channel and spend
-// level.
-func writeBandsCSV(w io.Writer, rb []uncertainty.ChannelResponse) error {
-	cw := csv.NewWriter(w)
-	if err := cw.Write([]string{"channel", "spend", "response_median", "response_p10", "response_p90", "response_p05", "response_p95"}); err != nil {
-		return err
-	}
-	num := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
-	for _, c := range rb {
-		for _, p := range c.Points {
-			if err := cw.Write([]string{c.Name, num(p.Spend), num(p.Median), num(p.P10), num(p.P90), num(p.P05), num(p.P95)}); err != nil {
-				return err
-			}
-		}
-	}
-	cw.Flush()
-	return cw.Error()
 }

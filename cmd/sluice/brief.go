@@ -8,11 +8,16 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+	"strings"
 	"time"
 
 	"github.com/urfave/cli/v2"
 
 	"sluice/internal/atomicfile"
+	"sluice/internal/sample"
+	"sluice/model"
+	"sluice/optimize"
+	"sluice/policies"
 	"sluice/record"
 	"sluice/report"
 	"sluice/uncertainty"
@@ -22,11 +27,78 @@ import (
 // beside the record so `sluice report` can render the brief again (with
 // the sign-offs made since) without refitting anything.
 type briefData struct {
-	RecordSHA256 string             `json:"record_sha256"`
-	Title        string             `json:"title,omitempty"`
-	Curves       []report.CurveBand `json:"curves"`
-	Gains        []float64          `json:"gains"`
-	Holdout      *report.Holdout    `json:"holdout,omitempty"`
+	RecordSHA256  string                `json:"record_sha256"`
+	Title         string                `json:"title,omitempty"`
+	Money         *report.Money         `json:"money,omitempty"`
+	Curves        []report.CurveBand    `json:"curves"`
+	Gains         []float64             `json:"gains"`
+	Holdout       *report.Holdout       `json:"holdout,omitempty"`
+	Contributions *report.Contributions `json:"contributions,omitempty"`
+	Budget        []report.BudgetPoint  `json:"budget,omitempty"`
+}
+
+// input is the brief's input for rec with these sign-offs.
+func (bd *briefData) input(rec *record.Decision, signed []string, sigs []report.Signature) report.Input {
+	return report.Input{Record: rec, Signed: signed, Signatures: sigs, Curves: bd.Curves, Gains: bd.Gains,
+		Holdout: bd.Holdout, Title: bd.Title, Money: bd.Money, Contributions: bd.Contributions, Budget: bd.Budget}
+}
+
+// budgetSteps are the budget view's totals against the decision's own.
+var budgetSteps = []float64{-0.10, -0.05, 0, 0.05, 0.10}
+
+// budgetView runs the allocator at each of budgetSteps and judges its plan
+// over the decision's draws with the decision's economics: the expected
+// gain and its 90% band, and the allocator's budget multiplier (the net
+// return of one more unit of weekly budget). Nothing here is new maths:
+// optimize.Solve and optimize.Economics, as the decision itself uses them.
+func budgetView(run *decisionRun, plan *optimize.Plan) []report.BudgetPoint {
+	current := run.in.Design.CurrentSpend()
+	var out []report.BudgetPoint
+	for _, x := range budgetSteps {
+		p := *plan
+		switch plan.Budget.Kind {
+		case optimize.BudgetTotal:
+			p.Budget.Total = plan.Budget.Total * (1 + x)
+		case optimize.BudgetChange:
+			p.Budget.Change = (1+plan.Budget.Change)*(1+x) - 1
+		default:
+			p.Budget = optimize.BudgetRule{Kind: optimize.BudgetChange, Change: x}
+		}
+		bp := report.BudgetPoint{Change: x}
+		res, err := allocate(run.in, &p, run.draws, run.point)
+		if err != nil {
+			bp.Error = err.Error()
+			out = append(out, bp)
+			continue
+		}
+		gains := run.econ.Gains(nil, run.curves, res.Proposed, current)
+		q := sample.Quantiles(gains, 0.05, 0.95)
+		bp.Budget, bp.ExpectedGain, bp.P05, bp.P95 = res.Spend, sample.Mean(gains), q[0], q[1]
+		bp.MarginalReturn, bp.Known = res.KKT.Multiplier, res.KKT.OK
+		out = append(out, bp)
+	}
+	return out
+}
+
+// contributions splits the full fit's weekly KPI into base and channels.
+func contributions(in *modelInput, p model.Params) *report.Contributions {
+	n := in.Panel.NumWeeks()
+	c := &report.Contributions{Actual: in.Panel.KPI, Channels: in.Spec.ChannelNames()}
+	for _, w := range in.Panel.Weeks {
+		c.Weeks = append(c.Weeks, w.Format(time.DateOnly))
+	}
+	c.Base = in.Design.Predict(p)
+	m := make([]float64, n)
+	for k, cp := range p.Channels {
+		in.Design.Media(m, k, cp)
+		part := make([]float64, n)
+		for t := range n {
+			part[t] = cp.Beta * m[t]
+			c.Base[t] -= part[t]
+		}
+		c.Media = append(c.Media, part)
+	}
+	return c
 }
 
 // newBriefData computes the brief's charts from a decision run.
@@ -34,7 +106,15 @@ func newBriefData(run *decisionRun, title string) *briefData {
 	in := run.in
 	low, high := in.Design.Support()
 	vpk := run.econ.ValuePerKPI
-	bd := &briefData{RecordSHA256: record.SHA256Hex(run.bytes), Title: title, Gains: run.gains}
+	bd := &briefData{RecordSHA256: record.SHA256Hex(run.bytes), Title: title, Gains: run.gains,
+		Money:         &report.Money{Margin: run.econ.Margin, ValuePerKPI: vpk},
+		Contributions: contributions(in, run.point)}
+	if pi, ok := run.rec.Inputs["plan"]; ok {
+		if plan, err := optimize.LoadPlan(pi.Path); err == nil {
+			bd.Money.Currency = plan.Currency
+			bd.Budget = budgetView(run, plan)
+		}
+	}
 	for k, cr := range uncertainty.ResponseBands(in.Design, run.draws, run.rec.Horizon) {
 		m := run.rec.Moves[k]
 		cb := report.CurveBand{Channel: cr.Name, SeenLow: low[k], SeenHigh: high[k],
@@ -88,13 +168,13 @@ func reportCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
-			signed, err := signedRoles(path, body, rec, c.String("policy"))
+			signed, sigs, err := signedRoles(path, body, rec, c.String("policy"))
 			if err != nil {
 				return err
 			}
 			out := c.String("out")
-			in := report.Input{Record: rec, Signed: signed, Curves: bd.Curves, Gains: bd.Gains,
-				Holdout: bd.Holdout, Title: bd.Title, RecordSHA256: record.SHA256Hex(body)}
+			in := bd.input(rec, signed, sigs)
+			in.RecordSHA256 = record.SHA256Hex(body)
 			if out == "" || filepath.Clean(out) == filepath.Join(dir, "report.html") {
 				// The brief of the set: rewritten as part of it.
 				out = filepath.Join(dir, "report.html")
@@ -162,29 +242,55 @@ func parseBriefData(raw []byte, source string) (*briefData, error) {
 }
 
 // signedRoles lists the roles, sorted, whose sign-offs on the record hold
-// under the policy as verify judges them (valid, dated, not withdrawn).
-func signedRoles(path string, body []byte, rec *record.Decision, policy string) ([]string, error) {
+// under the policy as verify judges them (valid, dated, not withdrawn), and
+// those sign-offs for the brief's table: role, key fingerprint, the key's
+// holder as the policy names it (its file name, or "key N of ROLE" for an
+// inline key) and the time.
+func signedRoles(path string, body []byte, rec *record.Decision, policy string) ([]string, []report.Signature, error) {
 	sp := record.SignaturesPath(path)
 	if !fileExists(sp) {
-		return nil, nil
+		return nil, nil, nil
 	}
 	sigs, err := record.ReadSignatures(sp)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	pol, err := recordPolicy(rec, policy)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	v := record.Verify(record.VerifyRequest{Record: body, Source: path, Signatures: sigs, Policy: pol})
+	roles, rows := signoffRows(v.Signed, pol)
+	return roles, rows, nil
+}
+
+// signoffRows turns the sign-offs that hold into the sorted roles they fill
+// and the brief's sign-off table rows.
+func signoffRows(signed []record.Signoff, pol *policies.Policy) ([]string, []report.Signature) {
 	var roles []string
-	for _, s := range v.Signed {
+	var rows []report.Signature
+	for _, s := range signed {
 		if !slices.Contains(roles, s.Role) {
 			roles = append(roles, s.Role)
 		}
+		who := "a key of " + s.Role + " in the policy"
+		for i, e := range pol.KeyEntries(s.Role) {
+			if !strings.HasPrefix(strings.TrimPrefix(e.Fingerprint, policies.FingerprintPrefix), s.KeyID) {
+				continue
+			}
+			who = fmt.Sprintf("key %d of %s in the policy", i+1, s.Role)
+			if e.Path != "" {
+				who = strings.TrimSuffix(filepath.Base(e.Path), filepath.Ext(e.Path))
+			}
+		}
+		at := ""
+		if !s.SignedAt.IsZero() {
+			at = s.SignedAt.UTC().Format("2006-01-02 15:04:05")
+		}
+		rows = append(rows, report.Signature{Role: s.Role, KeyID: s.KeyID, Signer: who, SignedAt: at})
 	}
 	slices.Sort(roles)
-	return roles, nil
+	return roles, rows
 }
 
 func countRequired(rec *record.Decision, signed []string) int {

@@ -49,6 +49,9 @@ func newOpts(c *cli.Context) (*opts, error) {
 			return nil, err
 		}
 	}
+	if err := checkSources(v, c); err != nil {
+		return nil, err
+	}
 	return &opts{c: c, v: v}, nil
 }
 

@@ -27,7 +27,7 @@ func demoCommand() *cli.Command {
 		Name:  "demo",
 		Usage: "run the whole job on the embedded example company (Fernhill Tea Co., invented)",
 		Flags: []cli.Flag{
-			&cli.StringFlag{Name: "out", Value: "sluice-demo", Usage: "directory for the demo's inputs and outputs"},
+			&cli.StringFlag{Name: "dir", Value: "sluice-demo", Usage: "directory for the demo's inputs and outputs (was --out)"},
 			&cli.Uint64Flag{Name: "seed", Value: 1, Usage: "seed of every random stream"},
 			&cli.IntFlag{Name: "workers", Value: 2, Usage: "parallel workers"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress bar"},
@@ -37,13 +37,13 @@ func demoCommand() *cli.Command {
 }
 
 func runDemo(c *cli.Context) error {
-	dir := c.String("out")
+	dir := c.String("dir")
 	w := c.App.Writer
 	if err := os.MkdirAll(filepath.Join(dir, "keys"), 0o755); err != nil {
 		return err
 	}
 	if err := guardSigned(dir, false, false); err != nil {
-		return err
+		return withHint(err, "the demo never overwrites a signed record: pass another --dir, or remove %s", dir)
 	}
 	if err := copyExamples(dir); err != nil {
 		return err
@@ -88,24 +88,26 @@ func runDemo(c *cli.Context) error {
 	if err != nil {
 		return err
 	}
-	recPath, brief, err := writeDecisionSet(dir, run, "Fernhill Tea Co. (invented demo company)", false)
+	recPath, brief, csvs, err := writeDecisionSet(dir, run, "Fernhill Tea Co. (invented demo company)", false)
 	if err != nil {
 		return err
 	}
 	printDecision(w, run.rec)
 	fmt.Fprintf(w, "\nwrote %s, %s and %s\n", recPath, brief, policyPath)
+	fmt.Fprintf(w, "for a spreadsheet: %s\n", strings.Join(csvs, ", "))
 	fmt.Fprintf(w, "open the brief in a browser: %s\n\n", brief)
 	fmt.Fprintln(w, "next, sign with the demo keys (DEMO KEYS, never for real decisions) and verify:")
+	self := selfCommand() // the binary the user ran, or go run
 	seen := map[string]bool{}
 	for _, s := range run.rec.SignoffsRequired {
 		if seen[s.Role] {
 			continue
 		}
 		seen[s.Role] = true
-		fmt.Fprintf(w, "  go run ./cmd/sluice sign --record %s --key %s --role %s\n", recPath, roles[s.Role], s.Role)
+		fmt.Fprintf(w, "  %s sign --record %s --key %s --role %s\n", self, recPath, roles[s.Role], s.Role)
 	}
-	fmt.Fprintf(w, "  go run ./cmd/sluice verify --record %s --policy %s --brief %s\n", recPath, policyPath, brief)
-	fmt.Fprintf(w, "  go run ./cmd/sluice report --record %s --policy %s   # the brief again, showing who signed\n", recPath, policyPath)
+	fmt.Fprintf(w, "  %s verify --record %s --policy %s --brief %s\n", self, recPath, policyPath, brief)
+	fmt.Fprintf(w, "  %s report --record %s --policy %s   # the brief again, showing who signed\n", self, recPath, policyPath)
 	return nil
 }
 

@@ -106,9 +106,9 @@ func printFitTable(w io.Writer, s fitSummary) {
 	}
 	tw.Flush()
 	f := s.Fit
-	fmt.Fprintf(w, "\nin-sample R² %.3f  wMAPE %.1f%%  residual SD %.4g  Durbin–Watson %.2f\n", f.R2, 100*f.WMAPE, f.Sigma, f.DurbinWatson)
-	fmt.Fprintf(w, "fit: %s; %d of %d starts converged; best SSE %.6g; %d evaluations; %d parameters; seed %d\n",
-		f.Status, f.Converged, f.Starts, f.SSE, f.Evaluations, f.Parameters, s.Seed)
+	fmt.Fprintf(w, "\nin-sample R² %.3f  wMAPE %.1f%%  residual SD %s  Durbin–Watson %.2f\n", f.R2, 100*f.WMAPE, plain(f.Sigma, 4), f.DurbinWatson)
+	fmt.Fprintf(w, "fit: %s; %d of %d starts converged; best SSE %s; %d evaluations; %d parameters; seed %d\n",
+		f.Status, f.Converged, f.Starts, plain(f.SSE, 6), f.Evaluations, f.Parameters, s.Seed)
 	fmt.Fprintln(w, "in-sample fit is not evidence of a good model: run `sluice validate` for holdout and recovery checks")
 }
 

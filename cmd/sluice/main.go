@@ -79,29 +79,35 @@ func withHint(err error, format string, a ...any) error {
 }
 
 func newApp(stdout, stderr io.Writer) *cli.App {
+	cmds := []*cli.Command{
+		fitCommand(),
+		simulateCommand(),
+		demoCommand(),
+		bootstrapCommand(),
+		mergeCommand(),
+		curvesCommand(),
+		validateCommand(),
+		allocateCommand(),
+		proposeCommand(),
+		rehearseCommand(),
+		rehearseMergeCommand(),
+		verifyCommand(),
+		reportCommand(),
+		keygenCommand(),
+		signCommand(),
+	}
+	// Old spellings of renamed flags keep working for one release; every
+	// command's help ends with examples.
+	applyRenames(cmds)
+	addExamples(cmds)
 	return &cli.App{
 		Name:    "sluice",
 		Usage:   "size next quarter's media reallocation to what the evidence supports",
 		Version: version,
 		Writer:  stdout, ErrWriter: stderr,
-		HideHelpCommand: true,
+		// `sluice help` and `sluice help COMMAND` print the same as --help.
+		HideHelpCommand: false,
 		ExitErrHandler:  func(*cli.Context, error) {}, // run prints errors once
-		Commands: []*cli.Command{
-			fitCommand(),
-			simulateCommand(),
-			demoCommand(),
-			bootstrapCommand(),
-			mergeCommand(),
-			curvesCommand(),
-			validateCommand(),
-			allocateCommand(),
-			proposeCommand(),
-			rehearseCommand(),
-			rehearseMergeCommand(),
-			verifyCommand(),
-			reportCommand(),
-			keygenCommand(),
-			signCommand(),
-		},
+		Commands:        cmds,
 	}
 }

@@ -22,6 +22,7 @@ func modelFlags() []cli.Flag {
 		&cli.StringFlag{Name: "controls", Usage: "comma-separated control columns"},
 		&cli.StringFlag{Name: "date-column", Usage: "date column (default: \"week\", else the first column)"},
 		&cli.StringFlag{Name: "spec", Usage: "model spec YAML (adstock and saturation kinds, bounds, harmonics, horizon)"},
+		&cli.StringFlag{Name: "events", Usage: "events CSV (name,date): one 0/1 control per holiday or event, 1 in the weeks holding its dates"},
 		&cli.Float64Flag{Name: "value-per-kpi", Value: 1, Usage: "currency per KPI unit, for a KPI counted in units"},
 		&cli.IntFlag{Name: "horizon", Usage: "planning horizon in weeks (default 13, or the spec's)"},
 		&cli.IntFlag{Name: "harmonics", Value: -1, Usage: "Fourier harmonics of the yearly season (default 2, or the spec's)"},
@@ -48,9 +49,11 @@ type modelInput struct {
 	// LiftsPath is the lift-test file (--lifts, or lifts: in sluice.yaml);
 	// Design carries its tests, so every fit of Design is calibrated with
 	// them. LiftsSHA256 is "" without one.
-	LiftsPath   string
-	LiftsSHA256 string
-	Lifts       []validation.LiftTest
+	LiftsPath    string
+	LiftsSHA256  string
+	Lifts        []validation.LiftTest
+	EventsPath   string // --events file, "" without one
+	EventsSHA256 string
 }
 
 func loadModelInput(o *opts) (*modelInput, error) {
@@ -60,7 +63,7 @@ func loadModelInput(o *opts) (*modelInput, error) {
 		return nil, withHint(errors.New("no data file"), "pass --data weekly.csv (or set data: in sluice.yaml)")
 	}
 	if !(in.ValuePerKPI > 0) {
-		return nil, fmt.Errorf("--value-per-kpi %g must be positive", in.ValuePerKPI)
+		return nil, fmt.Errorf("--value-per-kpi %s must be positive", plain(in.ValuePerKPI, 6))
 	}
 	var specFile *model.SpecFile
 	specPath := o.String("spec")
@@ -108,6 +111,13 @@ func loadModelInput(o *opts) (*modelInput, error) {
 	}
 	if s := o.Int("starts"); s != 0 {
 		spec.Starts = s
+	}
+	var specEvents []model.Event
+	if specFile != nil {
+		specEvents = specFile.Events
+	}
+	if in.EventsPath, in.EventsSHA256, err = applyEvents(o, p, &spec, specEvents, specPath); err != nil {
+		return nil, err
 	}
 	if err := spec.Validate("model"); err != nil {
 		return nil, err

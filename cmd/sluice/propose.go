@@ -51,7 +51,7 @@ func proposeCommand() *cli.Command {
 		Name:  "propose",
 		Usage: "allocate, gate every move by the policy and write the decision record (DIR/decision.json, DIR/report.html)",
 		Flags: append(decisionFlags(),
-			&cli.StringFlag{Name: "out", Usage: "directory for decision.json and report.html"},
+			&cli.StringFlag{Name: "dir", Usage: "directory for decision.json, report.html, moves.csv and plan.csv (was --out)"},
 			&cli.BoolFlag{Name: "replace-signed", Usage: "move an earlier signed record in DIR aside (decision.<sha>.json) instead of refusing (command line only)"},
 			&cli.BoolFlag{Name: "json", Usage: "print the decision record instead of the table"},
 		),
@@ -60,9 +60,9 @@ func proposeCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
-			dir := o.String("out")
+			dir := o.String("dir")
 			if dir == "" {
-				return withHint(errors.New("propose needs --out"), "pass --out DIR; decision.json and report.html are written there")
+				return withHint(errors.New("propose needs --dir"), "pass --dir DIR; decision.json, report.html and the CSV files are written there")
 			}
 			// A dangerous switch: from the command line only (see config.go).
 			replace := c.Bool("replace-signed")
@@ -77,7 +77,7 @@ func proposeCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
-			path, brief, err := writeDecisionSet(dir, run, "", replace)
+			path, brief, csvs, err := writeDecisionSet(dir, run, "", replace)
 			if err != nil {
 				return err
 			}
@@ -92,6 +92,7 @@ func proposeCommand() *cli.Command {
 				fmt.Fprintf(c.App.Writer, " and %s", brief)
 			}
 			fmt.Fprintln(c.App.Writer)
+			fmt.Fprintf(c.App.Writer, "for a spreadsheet: %s\n", strings.Join(csvs, ", "))
 			return nil
 		},
 	}
@@ -107,7 +108,7 @@ func guardSigned(dir string, replace, move bool) error {
 	}
 	if !replace {
 		return withHint(fmt.Errorf("refusing to overwrite %s: it has sign-offs in %s", rec, sigs),
-			"write the new decision to another --out, or pass --replace-signed on the command line to move the signed record aside")
+			"write the new decision to another --dir, or pass --replace-signed on the command line to move the signed record aside")
 	}
 	if !move {
 		return nil
@@ -138,27 +139,38 @@ func warnUnsignable(w io.Writer, run *decisionRun) {
 	}
 }
 
-// writeDecisionSet writes DIR/decision.json, DIR/brief.json and
-// DIR/report.html as one set (internal/atomicfile.WriteSet: all or
+// writeDecisionSet writes DIR/decision.json, DIR/brief.json,
+// DIR/report.html and the spreadsheet files (exports.go) as one set (internal/atomicfile.WriteSet: all or
 // nothing, the manifest DIR/outputs.json last). Whether a signed record is
 // in the way is decided with the directory locked, just before writing.
-func writeDecisionSet(dir string, run *decisionRun, title string, replaceSigned bool) (recPath, briefPath string, err error) {
+func writeDecisionSet(dir string, run *decisionRun, title string, replaceSigned bool) (recPath, briefPath string, csvs []string, err error) {
 	bd := newBriefData(run, title)
 	bdBytes, err := json.MarshalIndent(bd, "", "  ")
 	if err != nil {
-		return "", "", err
+		return "", "", nil, err
 	}
 	var page bytes.Buffer
-	if err := report.Render(&page, report.Input{Record: run.rec, Curves: bd.Curves, Gains: bd.Gains,
-		Holdout: bd.Holdout, Title: title, RecordSHA256: bd.RecordSHA256}); err != nil {
-		return "", "", err
+	in := bd.input(run.rec, nil, nil)
+	in.RecordSHA256 = bd.RecordSHA256
+	if err := report.Render(&page, in); err != nil {
+		return "", "", nil, err
+	}
+	sheets, err := decisionCSVs(run.rec)
+	if err != nil {
+		return "", "", nil, err
 	}
 	files := []atomicfile.File{
 		{Name: "decision.json", Data: run.bytes, Perm: 0o644},
 		{Name: "brief.json", Data: append(bdBytes, '\n'), Perm: 0o644},
 		{Name: "report.html", Data: page.Bytes(), Perm: 0o644},
+		{Name: movesCSV, Data: sheets[movesCSV], Perm: 0o644},
+		{Name: planCSV, Data: sheets[planCSV], Perm: 0o644},
 	}
-	return filepath.Join(dir, "decision.json"), filepath.Join(dir, "report.html"), writeDecisionFiles(dir, files, replaceSigned)
+	if err := writeDecisionFiles(dir, files, replaceSigned); err != nil {
+		return "", "", nil, err
+	}
+	return filepath.Join(dir, "decision.json"), filepath.Join(dir, "report.html"),
+		[]string{filepath.Join(dir, movesCSV), filepath.Join(dir, planCSV)}, nil
 }
 
 // writeDecisionFiles writes a decision's files as one set, deciding with
@@ -232,6 +244,9 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	}
 	if in.SpecPath != "" {
 		inputs["spec"] = record.Input{Path: in.SpecPath, SHA256: in.SpecSHA256}
+	}
+	if in.EventsPath != "" {
+		inputs["events"] = record.Input{Path: in.EventsPath, SHA256: in.EventsSHA256}
 	}
 	if err := addInput("plan", planPath); err != nil {
 		return nil, err

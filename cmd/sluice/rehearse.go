@@ -43,7 +43,7 @@ func rehearseCommand() *cli.Command {
 			&cli.IntFlag{Name: "base-draws", Value: 100, Usage: "bootstrap replicates of the data that worlds take their parameters from"},
 			&cli.IntFlag{Name: "world-draws", Value: 60, Usage: "bootstrap replicates of each world's decision"},
 			&cli.IntFlag{Name: "world-replicates", Value: 8, Usage: "recovery-check panels of each world's validation"},
-			&cli.StringFlag{Name: "out", Usage: "also write, into this directory, rehearsal.json (every world's outcome: kind, failed checks, each plan's true gain and verdict) and rehearsal.html (the page for reading)"},
+			&cli.StringFlag{Name: "dir", Usage: "also write, into this directory (was --out), rehearsal.json (every world's outcome: kind, failed checks, each plan's true gain and verdict) and rehearsal.html (the page for reading)"},
 			&cli.StringFlag{Name: "shard", Value: "1/1", Usage: "run only shard K of N: worlds i with i % N == K-1 (combine with sluice rehearse-merge)"},
 			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress line"},
@@ -127,9 +127,9 @@ func rehearseCommand() *cli.Command {
 // --out) and prints the table or, with --json, the summary.
 func emitRehearsal(c *cli.Context, o *opts, out rehearseOutput, r *rehearsal.Result, took time.Duration) error {
 	var wrote []string
-	if dir := o.String("out"); dir != "" {
+	if dir := o.String("dir"); dir != "" {
 		if err := os.MkdirAll(dir, 0o755); err != nil {
-			return fmt.Errorf("--out: %w", err)
+			return fmt.Errorf("--dir: %w", err)
 		}
 		jsonPath, htmlPath := filepath.Join(dir, "rehearsal.json"), filepath.Join(dir, "rehearsal.html")
 		if err := writeJSON(jsonPath, rehearseFile{out, r.Worlds}); err != nil {
@@ -169,7 +169,7 @@ func rehearseMergeCommand() *cli.Command {
 		Usage:     "combine rehearsal shards (DIR/rehearsal.json of each --shard K/N run) into the result of one run",
 		ArgsUsage: "SHARD.json...",
 		Flags: []cli.Flag{
-			&cli.StringFlag{Name: "out", Usage: "directory for the merged rehearsal.json and rehearsal.html"},
+			&cli.StringFlag{Name: "dir", Usage: "directory for the merged rehearsal.json and rehearsal.html (was --out)"},
 			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
 		},
 		Action: func(c *cli.Context) error {
@@ -178,7 +178,7 @@ func rehearseMergeCommand() *cli.Command {
 				return err
 			}
 			if c.NArg() == 0 {
-				return withHint(errors.New("rehearse-merge needs the shards' rehearsal.json files"), "sluice rehearse-merge --out DIR part1/rehearsal.json part2/rehearsal.json")
+				return withHint(errors.New("rehearse-merge needs the shards' rehearsal.json files"), "sluice rehearse-merge --dir DIR part1/rehearsal.json part2/rehearsal.json")
 			}
 			var first *rehearseFile
 			var parts [][]rehearsal.Outcome

@@ -23,11 +23,11 @@ func keygenCommand() *cli.Command {
 	return &cli.Command{
 		Name:  "keygen",
 		Usage: "create an ed25519 signing key: PREFIX.key (PKCS#8 PEM, mode 0600) and PREFIX.pub (PKIX PEM)",
-		Flags: []cli.Flag{&cli.StringFlag{Name: "out", Usage: "path prefix of the key files, e.g. keys/alice"}},
+		Flags: []cli.Flag{&cli.StringFlag{Name: "prefix", Usage: "path prefix of the key files, e.g. keys/alice (was --out)"}},
 		Action: func(c *cli.Context) error {
-			prefix := c.String("out")
+			prefix := c.String("prefix")
 			if prefix == "" {
-				return withHint(errors.New("keygen needs --out"), "sluice keygen --out keys/alice")
+				return withHint(errors.New("keygen needs --prefix"), "sluice keygen --prefix keys/alice")
 			}
 			if err := os.MkdirAll(filepath.Dir(prefix), 0o755); err != nil {
 				return err

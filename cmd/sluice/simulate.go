@@ -22,16 +22,16 @@ func simulateCommand() *cli.Command {
 		Usage: "draw a synthetic weekly panel from a known truth (weekly.csv and truth.json)",
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "truth", Usage: "truth YAML: channels with true adstock, saturation and coefficient, baseline, controls, noise, seed"},
-			&cli.StringFlag{Name: "out", Usage: "output directory"},
+			&cli.StringFlag{Name: "dir", Usage: "output directory (was --out)"},
 		},
 		Action: func(c *cli.Context) error {
 			o, err := newOpts(c)
 			if err != nil {
 				return err
 			}
-			path, dir := o.String("truth"), o.String("out")
+			path, dir := o.String("truth"), o.String("dir")
 			if path == "" || dir == "" {
-				return withHint(errors.New("simulate needs --truth and --out"), "sluice simulate --truth truth.yaml --out DIR")
+				return withHint(errors.New("simulate needs --truth and --dir"), "sluice simulate --truth truth.yaml --dir DIR")
 			}
 			tr, err := model.LoadTruth(path)
 			if err != nil {

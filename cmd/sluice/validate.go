@@ -31,6 +31,7 @@ func validateCommand() *cli.Command {
 			&cli.StringFlag{Name: "limits", Usage: "threshold overrides, e.g. holdout_wmape=0.08:0.15,break_even=1.2 (warn:fail)"},
 			&cli.BoolFlag{Name: "json", Usage: "print the evidence as JSON instead of the table"},
 			&cli.StringFlag{Name: "out", Usage: "write the evidence (JSON) to this file"},
+			&cli.BoolFlag{Name: "strict", Usage: "exit non-zero when a check fails (after printing the evidence)"},
 		),
 		Action: runValidate,
 	}
@@ -172,9 +173,15 @@ func runValidate(c *cli.Context) error {
 		}
 	}
 	if o.Bool("json") {
-		return printJSON(c.App.Writer, out)
+		if err := printJSON(c.App.Writer, out); err != nil {
+			return err
+		}
+	} else {
+		printEvidence(c.App.Writer, in, out)
 	}
-	printEvidence(c.App.Writer, in, out)
+	if o.Bool("strict") {
+		return strictFailure(out.Checks)
+	}
 	return nil
 }
 
@@ -207,13 +214,13 @@ func printEvidence(w io.Writer, in *modelInput, out validateOutput) {
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "status\tcheck\tscope\tmetric\tthreshold\tdetail")
 	for _, c := range out.Checks {
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%.4g\t%.4g\t%s\n", c.Status, c.Name, c.Scope, c.Metric, c.Threshold, c.Detail)
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\n", c.Status, c.Name, c.Scope, plain(c.Metric, 4), plain(c.Threshold, 4), c.Detail)
 	}
 	tw.Flush()
 	if len(out.Calibration) > 0 {
 		fmt.Fprintln(w, "\ncalibrated with the lift tests:")
 		for _, c := range out.Calibration {
-			fmt.Fprintf(w, "  %-16s ROI %.3g -> %.3g\n", c.Channel, c.ROI, c.ROICal)
+			fmt.Fprintf(w, "  %-16s ROI %s -> %s\n", c.Channel, plain(c.ROI, 3), plain(c.ROICal, 3))
 		}
 	}
 	for _, p := range out.Pending {

@@ -93,7 +93,7 @@ func verifyCommand() *cli.Command {
 				}
 			}
 			if req.Brief != nil && v.Decision != nil {
-				if err := checkBriefRendering(path, body, v, req.Brief, req.BriefSource); err != nil {
+				if err := checkBriefRendering(path, body, v, pol, req.Brief, req.BriefSource); err != nil {
 					v.Problems = append(v.Problems, err.Error())
 				}
 			}
@@ -229,21 +229,15 @@ func printVerificationJSON(w io.Writer, path string, v *record.Verification, set
 // brief.json beside it, as propose wrote it (nobody signed) and as report
 // writes it (with the roles whose sign-offs hold), and requires the given
 // brief to be one of them byte for byte: an edited page fails.
-func checkBriefRendering(path string, body []byte, v *record.Verification, brief []byte, briefPath string) error {
+func checkBriefRendering(path string, body []byte, v *record.Verification, pol *policies.Policy, brief []byte, briefPath string) error {
 	bd, err := readBriefData(path, body)
 	if err != nil {
 		return fmt.Errorf("brief %s: cannot render it again to compare: %v", briefPath, err)
 	}
-	var signed []string
-	for _, s := range v.Signed {
-		if !slices.Contains(signed, s.Role) {
-			signed = append(signed, s.Role)
-		}
-	}
-	for _, roles := range [][]string{nil, sortedCopy(signed)} {
+	roles, rows := signoffRows(v.Signed, pol)
+	for _, in := range []report.Input{bd.input(v.Decision, nil, nil), bd.input(v.Decision, roles, rows)} {
 		var buf bytes.Buffer
-		in := report.Input{Record: v.Decision, Signed: roles, Curves: bd.Curves, Gains: bd.Gains,
-			Holdout: bd.Holdout, Title: bd.Title, RecordSHA256: record.SHA256Hex(body)}
+		in.RecordSHA256 = record.SHA256Hex(body)
 		if err := report.Render(&buf, in); err != nil {
 			return fmt.Errorf("brief %s: %v", briefPath, err)
 		}
@@ -253,12 +247,6 @@ func checkBriefRendering(path string, body []byte, v *record.Verification, brief
 	}
 	return fmt.Errorf("brief %s differs from the brief sluice renders from the record and %s, unsigned or with the %d sign-offs that hold now: the page was edited, or sign-offs changed since it was rendered (sluice report renders it again)",
 		briefPath, filepath.Join(filepath.Dir(path), "brief.json"), len(v.Signed))
-}
-
-func sortedCopy(xs []string) []string {
-	out := slices.Clone(xs)
-	slices.Sort(out)
-	return out
 }
 
 func fileExists(p string) bool {
