@@ -1,9 +1,12 @@
 package study
 
 import (
+	"math"
+	"strings"
 	"testing"
 
 	"sluice/model"
+	"sluice/validation"
 )
 
 // A confounded pair: display is always bought with video, so the weekly
@@ -60,5 +63,59 @@ func TestConfoundedPairWithLifts(t *testing.T) {
 		if !(gain > 0) {
 			t.Errorf("with lifts the proposal's true gain is %.0f", gain)
 		}
+	}
+}
+
+// The lift check on a calibrated fit reports both fits: the weekly data
+// alone (a refit without the lifts) credit display with far more than its
+// true lift, the calibrated fit agrees with the experiment, and the check
+// is graded on the refit without the lifts, so it still flags the
+// disagreement. Display's ROI moves down towards its truth (groundtruth).
+func TestLiftCheckReportsBothFits(t *testing.T) {
+	tr, err := model.LoadTruth("testdata/world_overstated.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sim, err := model.Simulate(tr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w := trueWorld(t, sim)
+	display := 2
+	m := trueLift(w, display, 60, 67)
+	d, err := model.NewDesign(sim.Panel, tr.Spec())
+	if err != nil {
+		t.Fatal(err)
+	}
+	cal, err := d.WithLifts([]model.Lift{{Channel: display, From: 60, To: 67, Incremental: m, StdError: 0.15 * m}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	fit, err := cal.Fit(sim.Panel.KPI, model.FitSettings{Seed: 1, Workers: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	tests := []validation.LiftTest{{Channel: "display", ChannelIndex: display, From: 60, To: 67, Incremental: m, StdError: 0.15 * m,
+		Source: "lifts.csv", Line: 2}}
+	r := validation.CompareLifts(cal, fit, tests, nil)
+	if !r.Calibrated || len(r.ROIMoves) != 3 {
+		t.Fatalf("calibrated %v, %d ROI moves", r.Calibrated, len(r.ROIMoves))
+	}
+	t.Logf("display lift: true %.0f; without the lift in the fit %.0f (z %.2f); with it %.0f (z %.2f); ROI %.3f -> %.3f (truth %.3f)",
+		m, r.Uncalibrated[0], r.UncalibratedZ[0], r.Model[0], r.Z[0], r.ROIMoves[display].Uncalibrated, r.ROIMoves[display].Calibrated, w.ROI(display))
+	if math.Abs(r.Z[0]) > 2 {
+		t.Errorf("the calibrated fit disagrees with its own lift test: z %.2f", r.Z[0])
+	}
+	if math.Abs(r.UncalibratedZ[0]) < 2 {
+		t.Errorf("without the lift the data agree with it (z %.2f): the world does not show the overstatement", r.UncalibratedZ[0])
+	}
+	mv := r.ROIMoves[display]
+	if !(mv.Calibrated < mv.Uncalibrated) || math.Abs(mv.Calibrated-w.ROI(display)) >= math.Abs(mv.Uncalibrated-w.ROI(display)) {
+		t.Errorf("display ROI %.3f -> %.3f did not move towards the truth %.3f", mv.Uncalibrated, mv.Calibrated, w.ROI(display))
+	}
+	th := validation.DefaultThresholds()
+	cs := r.Checks(th)
+	if len(cs) != 1 || !strings.Contains(cs[0].Detail, "graded on the fit without them") || cs[0].Status == validation.Pass {
+		t.Errorf("check %+v: want a non-passing check graded on the fit without the lifts", cs)
 	}
 }
