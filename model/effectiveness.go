@@ -313,3 +313,39 @@ func (s Spec) Constant() Spec {
 	}
 	return c
 }
+
+// WithDrifting returns a shallow copy of d whose named channels ("all" for
+// every one) have a drifting effectiveness; the data, lift tests and
+// scaling are shared.
+func (d *Design) WithDrifting(names []string) (*Design, error) {
+	c := *d
+	c.Spec.Channels = append([]ChannelSpec(nil), d.Spec.Channels...)
+	if err := c.Spec.SetDrifting(names); err != nil {
+		return nil, err
+	}
+	return &c, nil
+}
+
+// WithConstant returns a shallow copy of d with every channel's
+// effectiveness constant.
+func (d *Design) WithConstant() *Design {
+	c := *d
+	c.Spec = d.Spec.Constant()
+	return &c
+}
+
+// EffectChange is a drifting channel's effectiveness in the last week over
+// its mean over the weeks of the fit (1 for a constant one): above 1 the
+// channel works better now than on average in the history.
+func (d *Design) EffectChange(p Params, k int) float64 {
+	path := d.EffectPath(p, k)
+	var m float64
+	for _, v := range path {
+		m += v
+	}
+	m /= float64(len(path))
+	if !(m > 0) {
+		return 1
+	}
+	return path[len(path)-1] / m
+}
