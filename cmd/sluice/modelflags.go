@@ -30,6 +30,7 @@ func modelFlags() []cli.Flag {
 		&cli.Uint64Flag{Name: "seed", Value: 1, Usage: "seed of every random stream; recorded in every output"},
 		&cli.IntFlag{Name: "workers", Value: 2, Usage: "parallel workers"},
 		&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV (channel,start,end,incremental,std_error): every fit is calibrated with it"},
+		&cli.StringFlag{Name: "drifting", Usage: "comma-separated channels (or \"all\") whose effectiveness may change smoothly over the history; the horizon uses the last week's"},
 	}
 }
 
@@ -108,6 +109,11 @@ func loadModelInput(o *opts) (*modelInput, error) {
 	}
 	if s := o.Int("starts"); s != 0 {
 		spec.Starts = s
+	}
+	if names := o.List("drifting"); len(names) > 0 {
+		if err := spec.SetDrifting(names); err != nil {
+			return nil, withHint(err, "pass --drifting with channels from --channels, or all")
+		}
 	}
 	if err := spec.Validate("model"); err != nil {
 		return nil, err
