@@ -86,6 +86,12 @@ type ChannelInfo struct {
 	HalfSaturation []float64 `json:"half_saturation"`
 	Shape          []float64 `json:"shape,omitempty"` // Hill only
 	MeanSpend      float64   `json:"mean_spend"`
+	// Effectiveness, EffectBasis and EffectStep are set for a drifting
+	// channel only (model.EffectDrifting), so constant models' headers are
+	// unchanged.
+	Effectiveness string  `json:"effectiveness,omitempty"`
+	EffectBasis   int     `json:"effect_basis,omitempty"`
+	EffectStep    float64 `json:"effect_step,omitempty"`
 }
 
 // FullFit is the fit of the observed data that every replicate resamples
@@ -169,6 +175,9 @@ func specInfo(s model.Spec) ModelInfo {
 		}
 		if c.Saturation == model.SaturationHill {
 			ci.Shape = c.Shape[:]
+		}
+		if c.Drifting() {
+			ci.Effectiveness, ci.EffectBasis, ci.EffectStep = c.Effectiveness, c.EffectBasis, c.EffectStep
 		}
 		mi.Channels = append(mi.Channels, ci)
 	}
@@ -579,6 +588,9 @@ func describeChannel(c ChannelInfo) string {
 	}
 	if c.Shape != nil {
 		s += fmt.Sprintf(" shape %v", c.Shape)
+	}
+	if c.Effectiveness != "" {
+		s += fmt.Sprintf(" effectiveness %s (basis %d, step %g)", c.Effectiveness, c.EffectBasis, c.EffectStep)
 	}
 	return s
 }
