@@ -10,6 +10,7 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/model"
 	"sluice/validation"
 )
 
@@ -31,6 +32,7 @@ func validateCommand() *cli.Command {
 			&cli.StringFlag{Name: "limits", Usage: "threshold overrides, e.g. holdout_wmape=0.08:0.15,break_even=1.2 (warn:fail)"},
 			&cli.BoolFlag{Name: "json", Usage: "print the evidence as JSON instead of the table"},
 			&cli.StringFlag{Name: "out", Usage: "write the evidence (JSON) to this file"},
+			&cli.BoolFlag{Name: "effect-check", Value: true, Usage: "test whether each channel's effectiveness changed over the history (effect/drift, effect/backtest); --effect-check=false skips it"},
 		),
 		Action: runValidate,
 	}
@@ -49,6 +51,8 @@ type validateOutput struct {
 	Calibration []calibratedROI       `json:"calibration,omitempty"`
 	Pending     []string              `json:"pending_forecasts,omitempty"`
 	Notes       []string              `json:"notes"`
+	// Effect is the effectiveness check (nil with --effect-check=false).
+	Effect *validation.EffectResult `json:"effectiveness,omitempty"`
 }
 
 type statusCount struct {
@@ -148,6 +152,26 @@ func runValidate(c *cli.Context) error {
 	res, err := validation.Run(prob, th, set)
 	if err != nil {
 		return err
+	}
+	if o.Bool("effect-check") {
+		if out.Effect, err = validation.Effectiveness(in.Design, in.Panel.KPI,
+			validation.EffectSettings{Seed: in.Seed, Workers: in.Workers}); err != nil {
+			return err
+		}
+		res.Evidence.Checks = append(res.Evidence.Checks, out.Effect.Checks()...)
+		for _, n := range out.Effect.Notes {
+			out.Notes = append(out.Notes, "effectiveness: "+n)
+		}
+		if out.Effect.Prefer == model.EffectDrifting && !in.Spec.AnyDrifting() {
+			var names []string
+			for _, c := range out.Effect.Channels {
+				if c.Changed {
+					names = append(names, c.Name)
+				}
+			}
+			out.Notes = append(out.Notes, fmt.Sprintf("effectiveness changed for %s and the drifting specification forecasts the last weeks better: refit with --drifting %s",
+				strings.Join(names, ", "), strings.Join(names, ",")))
+		}
 	}
 	out.Checks = res.Evidence.Checks
 	sum := res.Evidence.Summary()
