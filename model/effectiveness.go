@@ -17,6 +17,12 @@ const (
 	// evidence the coefficient stays flat). The horizon response uses the
 	// effectiveness at the end of the history, β(T) = b_J.
 	EffectDrifting = "drifting"
+	// EffectSeasonal lets the coefficient follow the yearly season: β(t) =
+	// Σ_j b_j P_j(t), P_j a periodic cubic B-spline basis over the season's
+	// period (Spec.Period), b_j ≥ 0, each cyclic step held back by the same
+	// Gaussian prior. The horizon response takes each future week's
+	// coefficient from the season it falls in.
+	EffectSeasonal = "seasonal"
 )
 
 // Defaults of the drifting option (common practice, no source). Six
@@ -31,13 +37,19 @@ const (
 	DefaultEffectStep  = 0.2
 )
 
-// Drifting reports whether channel c's effectiveness varies over time.
+// Drifting reports whether channel c's effectiveness drifts over the history.
 func (c *ChannelSpec) Drifting() bool { return c.Effectiveness == EffectDrifting }
 
+// Seasonal reports whether channel c's effectiveness follows the season.
+func (c *ChannelSpec) Seasonal() bool { return c.Effectiveness == EffectSeasonal }
+
+// Varying reports whether channel c's effectiveness is not constant.
+func (c *ChannelSpec) Varying() bool { return c.Drifting() || c.Seasonal() }
+
 // numColumns is the number of linear coefficients of channel c: one, or
-// one per basis function when its effectiveness drifts.
+// one per basis function when its effectiveness varies.
 func (c *ChannelSpec) numColumns() int {
-	if c.Drifting() {
+	if c.Varying() {
 		return c.EffectBasis
 	}
 	return 1
@@ -54,10 +66,11 @@ func (s *Spec) columnLayout() (first []int, total int) {
 	return first, total
 }
 
-// AnyDrifting reports whether any channel of s has a drifting effectiveness.
+// AnyDrifting reports whether any channel of s has an effectiveness that
+// is not constant (drifting or seasonal).
 func (s *Spec) AnyDrifting() bool {
 	for i := range s.Channels {
-		if s.Channels[i].Drifting() {
+		if s.Channels[i].Varying() {
 			return true
 		}
 	}
@@ -69,17 +82,26 @@ func (s *Spec) AnyDrifting() bool {
 // any basis size or step the spec already sets. It returns an error naming
 // a channel that is not in the spec.
 func (s *Spec) SetDrifting(names []string) error {
+	return s.setEffect(names, EffectDrifting)
+}
+
+// SetSeasonal is SetDrifting for a seasonal effectiveness.
+func (s *Spec) SetSeasonal(names []string) error {
+	return s.setEffect(names, EffectSeasonal)
+}
+
+func (s *Spec) setEffect(names []string, kind string) error {
 	for _, n := range names {
 		found := false
 		for i := range s.Channels {
 			c := &s.Channels[i]
 			if n == "all" || c.Name == n {
-				c.Effectiveness = EffectDrifting
+				c.Effectiveness = kind
 				found = true
 			}
 		}
 		if !found {
-			return fmt.Errorf("drifting channel %q is not among the model's channels %v", n, s.ChannelNames())
+			return fmt.Errorf("%s channel %q is not among the model's channels %v", kind, n, s.ChannelNames())
 		}
 	}
 	s.fill()
@@ -90,7 +112,7 @@ func (s *Spec) SetDrifting(names []string) error {
 func (c *ChannelSpec) validateEffect(field string) error {
 	switch c.Effectiveness {
 	case EffectConstant, "":
-	case EffectDrifting:
+	case EffectDrifting, EffectSeasonal:
 		if c.EffectBasis < 4 || c.EffectBasis > 20 {
 			return fmt.Errorf("%s.effect_basis: %d must be between 4 and 20", field, c.EffectBasis)
 		}
@@ -98,7 +120,7 @@ func (c *ChannelSpec) validateEffect(field string) error {
 			return fmt.Errorf("%s.effect_step: %g must be positive and at most 10", field, c.EffectStep)
 		}
 	default:
-		return fmt.Errorf("%s.effectiveness: %q is not one of constant, drifting", field, c.Effectiveness)
+		return fmt.Errorf("%s.effectiveness: %q is not one of constant, drifting, seasonal", field, c.Effectiveness)
 	}
 	return nil
 }
@@ -108,7 +130,7 @@ func (c *ChannelSpec) fillEffect() {
 	if c.Effectiveness == "" {
 		c.Effectiveness = EffectConstant
 	}
-	if c.Drifting() {
+	if c.Varying() {
 		if c.EffectBasis == 0 {
 			c.EffectBasis = DefaultEffectBasis
 		}
@@ -180,6 +202,60 @@ func effectBasis(J, n int) [][]float64 {
 	return out
 }
 
+// PeriodicBSpline returns the J values of the periodic cubic B-spline
+// basis on the circle [0, 1) with J equally spaced knots (J ≥ 4): P_j(u) =
+// N((uJ − j) mod J), N the uniform cubic B-spline on [0, 4). The values
+// are non-negative and sum to one at every u.
+func PeriodicBSpline(J int, u float64) []float64 {
+	if J < 4 {
+		panic("model: PeriodicBSpline needs at least 4 basis functions")
+	}
+	u -= math.Floor(u)
+	out := make([]float64, J)
+	for j := range out {
+		x := math.Mod(u*float64(J)-float64(j), float64(J))
+		if x < 0 {
+			x += float64(J)
+		}
+		out[j] = cardinalCubic(x)
+	}
+	return out
+}
+
+// cardinalCubic is the uniform cubic B-spline with knots 0, 1, 2, 3, 4.
+func cardinalCubic(x float64) float64 {
+	switch {
+	case x < 0 || x >= 4:
+		return 0
+	case x < 1:
+		return x * x * x / 6
+	case x < 2:
+		return (-3*x*x*x + 12*x*x - 12*x + 4) / 6
+	case x < 3:
+		return (3*x*x*x - 24*x*x + 60*x - 44) / 6
+	default:
+		y := 4 - x
+		return y * y * y / 6
+	}
+}
+
+// channelBasis is channel c's basis over the design's n weeks: [j][t].
+func (s *Spec) channelBasis(c *ChannelSpec, n int) [][]float64 {
+	if c.Seasonal() {
+		out := make([][]float64, c.EffectBasis)
+		for j := range out {
+			out[j] = make([]float64, n)
+		}
+		for t := range n {
+			for j, v := range PeriodicBSpline(c.EffectBasis, float64(t)/s.Period) {
+				out[j][t] = v
+			}
+		}
+		return out
+	}
+	return effectBasis(c.EffectBasis, n)
+}
+
 // BetaAt is the channel's coefficient in week t of the design it was
 // fitted on: Beta for a constant effectiveness; for a drifting one Σ_j
 // b_j B_j(t/(W−1)), W = EffectWeeks, held at its last value after week W−1
@@ -188,6 +264,14 @@ func effectBasis(J, n int) [][]float64 {
 func (cp *ChannelParams) BetaAt(t int) float64 {
 	if len(cp.Effect) == 0 {
 		return cp.Beta
+	}
+	if cp.EffectPeriod > 0 {
+		// Seasonal: the week's place in the season, also beyond the data.
+		var s float64
+		for j, v := range PeriodicBSpline(len(cp.Effect), float64(t)/cp.EffectPeriod) {
+			s += cp.Effect[j] * v
+		}
+		return s
 	}
 	if cp.EffectWeeks < 2 {
 		return cp.Beta
@@ -232,11 +316,15 @@ func (d *Design) effectRows(pri Priors, sigma float64) []effectRow {
 	var out []effectRow
 	for k := range d.Spec.Channels {
 		c := &d.Spec.Channels[k]
-		if !c.Drifting() || pri == nil || !(pri[k].Step > 0) {
+		if !c.Varying() || pri == nil || !(pri[k].Step > 0) {
 			continue
 		}
-		for j := range c.EffectBasis - 1 {
-			out = append(out, effectRow{lo: first[k] + j, hi: first[k] + j + 1, weight: sigma / pri[k].Step})
+		steps := c.EffectBasis - 1
+		if c.Seasonal() {
+			steps = c.EffectBasis // the last step wraps round to the first
+		}
+		for j := range steps {
+			out = append(out, effectRow{lo: first[k] + j, hi: first[k] + (j+1)%c.EffectBasis, weight: sigma / pri[k].Step})
 		}
 	}
 	return out
@@ -251,7 +339,7 @@ func (d *Design) effectRows(pri Priors, sigma float64) []effectRow {
 func (d *Design) resolveSteps(y []float64, rows []int, lifts []Lift, pri Priors, set FitSettings) (Priors, *FitResult, error) {
 	need := false
 	for k := range d.Spec.Channels {
-		if d.Spec.Channels[k].Drifting() && (pri == nil || !(pri[k].Step > 0)) {
+		if d.Spec.Channels[k].Varying() && (pri == nil || !(pri[k].Step > 0)) {
 			need = true
 		}
 	}
@@ -289,7 +377,7 @@ func (d *Design) resolveSteps(y []float64, rows []int, lifts []Lift, pri Priors,
 	}
 	for k := range d.Spec.Channels {
 		c := &d.Spec.Channels[k]
-		if !c.Drifting() || out[k].Step > 0 {
+		if !c.Varying() || out[k].Step > 0 {
 			continue
 		}
 		b := fr.Params.Channels[k].Beta
@@ -348,4 +436,27 @@ func (d *Design) EffectChange(p Params, k int) float64 {
 		return 1
 	}
 	return path[len(path)-1] / m
+}
+
+// SeasonLift is a seasonal channel's mean coefficient over the next
+// horizon over its mean over the year (1 for any other channel): above 1
+// the coming weeks are in the channel's better season.
+func (d *Design) SeasonLift(p Params, k int) float64 {
+	cp := p.Channels[k]
+	if cp.EffectPeriod <= 0 || len(cp.Effect) == 0 {
+		return 1
+	}
+	var year float64
+	const steps = 520
+	for i := range steps {
+		u := float64(i) / steps
+		for j, v := range PeriodicBSpline(len(cp.Effect), u) {
+			year += cp.Effect[j] * v
+		}
+	}
+	year /= steps
+	if !(year > 0) {
+		return 1
+	}
+	return cp.Beta / year // Beta is the mean over the next horizon
 }

@@ -24,6 +24,9 @@ type ChannelParams struct {
 	// empty for a constant effectiveness.
 	Effect      []float64 `json:"effect,omitempty"`
 	EffectWeeks int       `json:"effect_weeks,omitempty"`
+	// EffectPeriod is the season's length in weeks for a seasonal
+	// effectiveness (Effect then holds periodic basis weights); 0 otherwise.
+	EffectPeriod float64 `json:"effect_period,omitempty"`
 }
 
 // Params are all fitted parameters of the model.
@@ -397,13 +400,25 @@ func (d *Design) unpack(theta, coef, fixed []float64) Params {
 	for k := range d.Spec.Channels {
 		p.Channels[k], j = d.channelParams(theta, j, k)
 		c := &d.Spec.Channels[k]
-		if !c.Drifting() {
+		if !c.Varying() {
 			p.Channels[k].Beta = coef[first[k]]
 			continue
 		}
 		b := append([]float64(nil), coef[first[k]:first[k]+c.EffectBasis]...)
-		p.Channels[k].Effect, p.Channels[k].EffectWeeks = b, d.N
-		p.Channels[k].Beta = b[len(b)-1] // B_J(1) = 1: the end of the history
+		cp := &p.Channels[k]
+		cp.Effect, cp.EffectWeeks = b, d.N
+		if c.Drifting() {
+			cp.Beta = b[len(b)-1] // B_J(1) = 1: the end of the history
+			continue
+		}
+		// Seasonal: Beta is the mean coefficient over the next horizon
+		// (a summary; the horizon response reads every week's).
+		cp.EffectPeriod = d.Spec.Period
+		cp.Beta = 0
+		for t := d.N; t < d.N+d.Spec.Horizon; t++ {
+			cp.Beta += cp.BetaAt(t)
+		}
+		cp.Beta /= float64(d.Spec.Horizon)
 	}
 	return p
 }
@@ -515,8 +530,8 @@ func newWorkspace(d *Design, y []float64) *workspace {
 	w.first, L = d.Spec.columnLayout()
 	w.basis = make([][][]float64, K)
 	for k := range d.Spec.Channels {
-		if c := &d.Spec.Channels[k]; c.Drifting() {
-			w.basis[k] = effectBasis(c.EffectBasis, d.N)
+		if c := &d.Spec.Channels[k]; c.Varying() {
+			w.basis[k] = d.Spec.channelBasis(c, d.N)
 		}
 	}
 	w.bt = make([]float64, d.N)

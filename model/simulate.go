@@ -53,6 +53,10 @@ type TrueChannel struct {
 	// last week's is Beta·(1 + Drift) and the horizon's truth uses that.
 	// 0 (the default) is a constant effectiveness; it must exceed −1.
 	Drift float64 `yaml:"drift" json:"drift,omitempty"`
+	// SeasonEffect is the amplitude of a seasonal effectiveness: the
+	// coefficient is multiplied by 1 + SeasonEffect·cos(2πt/52.18), also in
+	// the horizon's weeks; 0 (the default) is none; |SeasonEffect| < 1.
+	SeasonEffect float64 `yaml:"season_effect" json:"season_effect,omitempty"`
 }
 
 // TrueControl is a control variable of a synthetic world: an AR(1) series
@@ -138,6 +142,9 @@ func (t *Truth) fill(source string) error {
 		}
 		if !(c.Drift > -1 && c.Drift <= 10) {
 			return bad(p+".drift", "%g must be above -1 and at most 10", c.Drift)
+		}
+		if !(math.Abs(c.SeasonEffect) < 1) {
+			return bad(p+".season_effect", "%g must lie strictly between -1 and 1", c.SeasonEffect)
 		}
 	}
 	for i, c := range t.Channels {
@@ -270,12 +277,15 @@ func Simulate(t *Truth) (*Simulated, error) {
 	// truth of the horizon the last week's β (the response is linear in β).
 	paths := make([][]float64, len(t.Channels))
 	contrib := make([]float64, len(t.Channels))
+	season := func(c TrueChannel, i int) float64 {
+		return 1 + c.SeasonEffect*math.Cos(2*math.Pi*float64(i)/spec.Period)
+	}
 	for k, c := range t.Channels {
 		paths[k] = make([]float64, n)
 		for i := range paths[k] {
-			paths[k][i] = c.Beta * (1 + c.Drift*float64(i)/float64(max(n-1, 1)))
+			paths[k][i] = c.Beta * (1 + c.Drift*float64(i)/float64(max(n-1, 1))) * season(c, i)
 		}
-		if c.Drift == 0 {
+		if c.Drift == 0 && c.SeasonEffect == 0 {
 			continue
 		}
 		unit := world.Channels[k]
@@ -284,7 +294,7 @@ func Simulate(t *Truth) (*Simulated, error) {
 			mu[i] += (paths[k][i] - c.Beta) * v
 			contrib[k] += paths[k][i] * v
 		}
-		end := paths[k][n-1]
+		end := c.Beta * (1 + c.Drift) // the drift's level at the end, without the season
 		world.Channels[k].Beta, params.Channels[k].Beta = end, end
 	}
 	noise := ar1(rng, n, t.NoiseAR)
@@ -295,8 +305,21 @@ func Simulate(t *Truth) (*Simulated, error) {
 	}
 	sim := &Simulated{Panel: p, Truth: t, Params: params, Summary: trueSummary(d, params, world), EffectPath: paths}
 	driftSummary(sim.Summary, t, p.Spend, contrib)
-	for k := range params.Channels {
-		sim.Response = append(sim.Response, world.Response(k, world.CurrentSpend(k)))
+	for k, c := range t.Channels {
+		cur := world.CurrentSpend(k)
+		if c.SeasonEffect != 0 {
+			// Each future week's coefficient is the end level times that
+			// week's season (groundtruth's response has one coefficient).
+			beta := func(i int) float64 { return params.Channels[k].Beta * season(c, i) }
+			sim.Response = append(sim.Response, seasonalResponse(world.Channels[k], world.Horizon, cur, beta))
+			if h := 1e-4 * cur; h > 0 {
+				up := seasonalResponse(world.Channels[k], world.Horizon, cur+h, beta)
+				down := seasonalResponse(world.Channels[k], world.Horizon, cur-h, beta)
+				sim.Summary[k].MROI = (up - down) / (2 * h) / float64(world.Horizon)
+			}
+			continue
+		}
+		sim.Response = append(sim.Response, world.Response(k, cur))
 	}
 	return sim, nil
 }
@@ -352,13 +375,37 @@ func trueSummary(d *Design, p Params, w *groundtruth.World) []ChannelSummary {
 	return out
 }
 
+// seasonalResponse is groundtruth's horizon response of channel c at
+// weekly spend s over h weeks with a coefficient beta(t) per week (t
+// counted from the first week of the data): the media of the spend with
+// and without the horizon's, each week weighed by its coefficient, summed
+// over the horizon and the kernel's whole tail.
+func seasonalResponse(c groundtruth.Channel, h int, s float64, beta func(int) float64) float64 {
+	n := len(c.Spend)
+	tail := len(c.Kernel())
+	with := make([]float64, n+h+tail)
+	without := make([]float64, n+h+tail)
+	copy(with, c.Spend)
+	copy(without, c.Spend)
+	for t := n; t < n+h; t++ {
+		with[t] = s
+	}
+	c.Beta = 1
+	m1, m0 := c.Media(with), c.Media(without)
+	var r float64
+	for t := n; t < len(with); t++ {
+		r += beta(t) * (m1[t] - m0[t])
+	}
+	return r
+}
+
 // driftSummary puts the contribution and ROI over the data of drifting
 // channels (β(t) week by week, in contrib) into the truth's summary;
 // trueSummary computed them with the last week's β.
 func driftSummary(out []ChannelSummary, t *Truth, spend [][]float64, contrib []float64) {
 	drift := false
 	for k, c := range t.Channels {
-		if c.Drift == 0 {
+		if c.Drift == 0 && c.SeasonEffect == 0 {
 			continue
 		}
 		drift = true

@@ -86,9 +86,8 @@ type ChannelInfo struct {
 	HalfSaturation []float64 `json:"half_saturation"`
 	Shape          []float64 `json:"shape,omitempty"` // Hill only
 	MeanSpend      float64   `json:"mean_spend"`
-	// Effectiveness, EffectBasis and EffectStep are set for a drifting
-	// channel only (model.EffectDrifting), so constant models' headers are
-	// unchanged.
+	// Effectiveness, EffectBasis and EffectStep are set for a drifting or
+	// seasonal channel only, so constant models' headers are unchanged.
 	Effectiveness string  `json:"effectiveness,omitempty"`
 	EffectBasis   int     `json:"effect_basis,omitempty"`
 	EffectStep    float64 `json:"effect_step,omitempty"`
@@ -176,7 +175,7 @@ func specInfo(s model.Spec) ModelInfo {
 		if c.Saturation == model.SaturationHill {
 			ci.Shape = c.Shape[:]
 		}
-		if c.Drifting() {
+		if c.Varying() {
 			ci.Effectiveness, ci.EffectBasis, ci.EffectStep = c.Effectiveness, c.EffectBasis, c.EffectStep
 		}
 		mi.Channels = append(mi.Channels, ci)

@@ -73,6 +73,7 @@ type fitSummary struct {
 	// over its history average (from the fit); Effect the effectiveness
 	// check (fit --effect-check).
 	Drifting map[string]float64       `json:"drifting,omitempty"`
+	Seasonal map[string]float64       `json:"seasonal,omitempty"` // next horizon's effectiveness over the year's mean
 	Effect   *validation.EffectResult `json:"effectiveness,omitempty"`
 }
 
@@ -93,8 +94,14 @@ type fitInfo struct {
 }
 
 func newFitSummary(in *modelInput, fr *model.FitResult) fitSummary {
-	var drifting map[string]float64
+	var drifting, seasonal map[string]float64
 	for k, c := range in.Spec.Channels {
+		if c.Seasonal() {
+			if seasonal == nil {
+				seasonal = map[string]float64{}
+			}
+			seasonal[c.Name] = in.Design.SeasonLift(fr.Params, k)
+		}
 		if c.Drifting() {
 			if drifting == nil {
 				drifting = map[string]float64{}
@@ -104,6 +111,7 @@ func newFitSummary(in *modelInput, fr *model.FitResult) fitSummary {
 	}
 	return fitSummary{
 		Drifting: drifting,
+		Seasonal: seasonal,
 		Tool:     "sluice", Version: version, Seed: in.Seed,
 		Inputs:   inputHashes{Data: in.DataPath, DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256},
 		KPI:      in.Panel.KPIName,
@@ -145,6 +153,11 @@ func printEffect(w io.Writer, s fitSummary) {
 			if v, ok := s.Drifting[c.Name]; ok {
 				fmt.Fprintf(w, "drifting %s: effectiveness in the last week %+.0f%% against its history average (ROI above is over the history, marginal ROI at the last week's)\n", c.Name, 100*(v-1))
 			}
+		}
+	}
+	for _, c := range s.Channels {
+		if v, ok := s.Seasonal[c.Name]; ok {
+			fmt.Fprintf(w, "seasonal %s: effectiveness over the next %d weeks %+.0f%% against its yearly average (marginal ROI above is the next weeks')\n", c.Name, s.Horizon, 100*(v-1))
 		}
 	}
 	e := s.Effect

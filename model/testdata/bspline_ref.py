@@ -1,7 +1,8 @@
 # Reference for model.BSpline: the clamped cubic B-spline basis on [0, 1]
 # with equally spaced interior knots, evaluated by SciPy
 # (scipy.interpolate.BSpline.basis_element on each function's own knots).
-# stdin: JSON {"J": [..], "u": [..]}; stdout: JSON {"J": [[[B_j(u)] per u] per J]}.
+# stdin: JSON {"J": [..], "u": [..], "x": [..]}; stdout: JSON {"J": [[[B_j(u)] per u] per J],
+# "cardinal": [N(x) per x]}, N the uniform cubic B-spline on knots 0, 1, 2, 3, 4.
 import json, sys
 import numpy as np
 from scipy.interpolate import BSpline
@@ -26,4 +27,7 @@ for J in req["J"]:
             row.append(v)
         rows.append(row)
     out[str(J)] = rows
+# The uniform cubic B-spline on knots 0..4 (the periodic basis's element).
+card = BSpline.basis_element([0, 1, 2, 3, 4], extrapolate=False)
+out["cardinal"] = [0.0 if np.isnan(card(x)) else float(card(x)) for x in req.get("x", [])]
 json.dump(out, sys.stdout)
