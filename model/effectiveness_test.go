@@ -344,3 +344,65 @@ func TestSeasonalRecovery(t *testing.T) {
 		t.Errorf("seasonal channel: median error %.1f%% (goal <= 20%% and below the constant fit's %.1f%%)", 100*ms, 100*mc)
 	}
 }
+
+// The drifting and seasonal columns' θ-derivative (what Kaufman's
+// Jacobian is built from) against central finite differences of Σ_l c_l
+// M_l(θ) — a closed-form check of the analytic derivative.
+func TestVaryingDerivative(t *testing.T) {
+	sim, err := Simulate(driftWorld(31, 0.6, 0.3))
+	if err != nil {
+		t.Fatal(err)
+	}
+	spec := sim.Truth.Spec()
+	if err := spec.SetDrifting([]string{"search"}); err != nil {
+		t.Fatal(err)
+	}
+	if err := spec.SetSeasonal([]string{"video"}); err != nil {
+		t.Fatal(err)
+	}
+	d, err := NewDesign(sim.Panel, spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w := newWorkspace(d, sim.Panel.KPI)
+	_, L := spec.columnLayout()
+	coef := make([]float64, L)
+	for l := range coef {
+		coef[l] = 1000 * float64(1+l%5)
+	}
+	theta := d.pack(sim.Params)
+	cols := allocRows(L, d.N)
+	combo := func(th []float64) []float64 {
+		w.columns(th, cols)
+		out := make([]float64, d.N)
+		for l := range cols {
+			for i, v := range cols[l] {
+				out[i] += coef[l] * v
+			}
+		}
+		return out
+	}
+	combo(theta)
+	dst := allocRows(len(theta), d.N)
+	w.deriv(theta, coef, dst)
+	for j := range theta {
+		h := 1e-6 * math.Max(1, math.Abs(theta[j]))
+		up := append([]float64(nil), theta...)
+		dn := append([]float64(nil), theta...)
+		up[j] += h
+		dn[j] -= h
+		fu, fd := combo(up), combo(dn)
+		var maxErr, scale float64
+		for i := range fu {
+			fdv := (fu[i] - fd[i]) / (2 * h)
+			maxErr = math.Max(maxErr, math.Abs(fdv-dst[j][i]))
+			scale = math.Max(scale, math.Abs(fdv))
+		}
+		if scale == 0 {
+			t.Fatalf("θ_%d: the combination does not move (a vacuous check)", j)
+		}
+		if maxErr > 1e-5*math.Max(scale, 1) {
+			t.Errorf("θ_%d: analytic derivative off by %.3g (scale %.3g)", j, maxErr, scale)
+		}
+	}
+}
