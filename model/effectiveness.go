@@ -256,30 +256,39 @@ func (s *Spec) channelBasis(c *ChannelSpec, n int) [][]float64 {
 	return effectBasis(c.EffectBasis, n)
 }
 
+// EffectWeights are the basis weights of a varying effectiveness: β(t) =
+// Σ_j Weights[j] B_j(t), with the clamped basis over Weeks weeks
+// (drifting), or the periodic basis of Period weeks (seasonal, Period > 0).
+type EffectWeights struct {
+	Weights []float64 `json:"weights"`
+	Weeks   int       `json:"weeks"`
+	Period  float64   `json:"period,omitempty"`
+}
+
 // BetaAt is the channel's coefficient in week t of the design it was
 // fitted on: Beta for a constant effectiveness; for a drifting one Σ_j
-// b_j B_j(t/(W−1)), W = EffectWeeks, held at its last value after week W−1
+// b_j B_j(t/(W−1)), W = Effect.Weeks, held at its last value after week W−1
 // (a fit on the first weeks of a panel predicts the later ones with the
 // effectiveness it ended on).
 func (cp *ChannelParams) BetaAt(t int) float64 {
-	if len(cp.Effect) == 0 {
+	e := cp.Effect
+	if e == nil || len(e.Weights) == 0 {
 		return cp.Beta
 	}
-	if cp.EffectPeriod > 0 {
+	var s float64
+	if e.Period > 0 {
 		// Seasonal: the week's place in the season, also beyond the data.
-		var s float64
-		for j, v := range PeriodicBSpline(len(cp.Effect), float64(t)/cp.EffectPeriod) {
-			s += cp.Effect[j] * v
+		for j, v := range PeriodicBSpline(len(e.Weights), float64(t)/e.Period) {
+			s += e.Weights[j] * v
 		}
 		return s
 	}
-	if cp.EffectWeeks < 2 {
+	if e.Weeks < 2 {
 		return cp.Beta
 	}
-	u := math.Min(1, float64(t)/float64(cp.EffectWeeks-1))
-	var s float64
-	for j, v := range BSpline(len(cp.Effect), u) {
-		s += cp.Effect[j] * v
+	u := math.Min(1, float64(t)/float64(e.Weeks-1))
+	for j, v := range BSpline(len(e.Weights), u) {
+		s += e.Weights[j] * v
 	}
 	return s
 }
@@ -289,7 +298,7 @@ func (cp *ChannelParams) BetaAt(t int) float64 {
 func (d *Design) EffectPath(p Params, k int) []float64 {
 	cp := p.Channels[k]
 	out := make([]float64, d.N)
-	if len(cp.Effect) == 0 {
+	if cp.Effect == nil {
 		for t := range out {
 			out[t] = cp.Beta
 		}
@@ -443,15 +452,15 @@ func (d *Design) EffectChange(p Params, k int) float64 {
 // the coming weeks are in the channel's better season.
 func (d *Design) SeasonLift(p Params, k int) float64 {
 	cp := p.Channels[k]
-	if cp.EffectPeriod <= 0 || len(cp.Effect) == 0 {
+	if cp.Effect == nil || cp.Effect.Period <= 0 {
 		return 1
 	}
 	var year float64
 	const steps = 520
 	for i := range steps {
 		u := float64(i) / steps
-		for j, v := range PeriodicBSpline(len(cp.Effect), u) {
-			year += cp.Effect[j] * v
+		for j, v := range PeriodicBSpline(len(cp.Effect.Weights), u) {
+			year += cp.Effect.Weights[j] * v
 		}
 	}
 	year /= steps

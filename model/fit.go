@@ -19,14 +19,10 @@ type ChannelParams struct {
 	HalfSat float64 `json:"half_saturation"` // κ, multiple of the steady-state adstock of mean spend (Design.HalfSatLevel)
 	Shape   float64 `json:"shape,omitempty"` // s, Hill only
 	Beta    float64 `json:"beta"`            // KPI at full saturation per week, ≥ 0; at the end of the history if the effectiveness drifts
-	// Effect holds a drifting channel's basis weights b_j (β(t) = Σ_j b_j
-	// B_j(t), see BetaAt), EffectWeeks the number of weeks they span; both
-	// empty for a constant effectiveness.
-	Effect      []float64 `json:"effect,omitempty"`
-	EffectWeeks int       `json:"effect_weeks,omitempty"`
-	// EffectPeriod is the season's length in weeks for a seasonal
-	// effectiveness (Effect then holds periodic basis weights); 0 otherwise.
-	EffectPeriod float64 `json:"effect_period,omitempty"`
+	// Effect is the coefficient's path when the effectiveness varies
+	// (drifting or seasonal; see BetaAt), nil for a constant one. A
+	// pointer keeps ChannelParams comparable.
+	Effect *EffectWeights `json:"effect,omitempty"`
 }
 
 // Params are all fitted parameters of the model.
@@ -41,8 +37,10 @@ type Params struct {
 func (p Params) Clone() Params {
 	q := Params{Channels: append([]ChannelParams(nil), p.Channels...), Fixed: append([]float64(nil), p.Fixed...)}
 	for k := range q.Channels {
-		if q.Channels[k].Effect != nil {
-			q.Channels[k].Effect = append([]float64(nil), q.Channels[k].Effect...)
+		if e := q.Channels[k].Effect; e != nil {
+			c := *e
+			c.Weights = append([]float64(nil), e.Weights...)
+			q.Channels[k].Effect = &c
 		}
 	}
 	return q
@@ -406,14 +404,14 @@ func (d *Design) unpack(theta, coef, fixed []float64) Params {
 		}
 		b := append([]float64(nil), coef[first[k]:first[k]+c.EffectBasis]...)
 		cp := &p.Channels[k]
-		cp.Effect, cp.EffectWeeks = b, d.N
+		cp.Effect = &EffectWeights{Weights: b, Weeks: d.N}
 		if c.Drifting() {
 			cp.Beta = b[len(b)-1] // B_J(1) = 1: the end of the history
 			continue
 		}
 		// Seasonal: Beta is the mean coefficient over the next horizon
 		// (a summary; the horizon response reads every week's).
-		cp.EffectPeriod = d.Spec.Period
+		cp.Effect.Period = d.Spec.Period
 		cp.Beta = 0
 		for t := d.N; t < d.N+d.Spec.Horizon; t++ {
 			cp.Beta += cp.BetaAt(t)
@@ -485,11 +483,11 @@ func (d *Design) Predict(p Params) []float64 {
 	}
 	m := make([]float64, d.N)
 	for k, cp := range p.Channels {
-		if cp.Beta == 0 && len(cp.Effect) == 0 {
+		if cp.Beta == 0 && cp.Effect == nil {
 			continue
 		}
 		d.Media(m, k, cp)
-		if len(cp.Effect) > 0 {
+		if cp.Effect != nil {
 			for t, v := range m {
 				y[t] += cp.BetaAt(t) * v
 			}

@@ -14,7 +14,7 @@ func (d *Design) LiftEffect(k int, cp ChannelParams, from, to int) float64 {
 	if from < 0 || to >= d.N || from > to {
 		panic("model: LiftEffect: window out of range")
 	}
-	if cp.Beta == 0 && len(cp.Effect) == 0 {
+	if cp.Beta == 0 && cp.Effect == nil {
 		return 0
 	}
 	m := d.Media(make([]float64, d.N), k, cp)

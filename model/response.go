@@ -64,7 +64,7 @@ func (d *Design) NewCurve(k int, cp ChannelParams, h int) *Curve {
 	for _, a := range cv.Carry {
 		cv.base += cv.sat(a)
 	}
-	if cp.EffectPeriod > 0 && len(cp.Effect) > 0 {
+	if cp.Effect != nil && cp.Effect.Period > 0 {
 		cv.Betas, cv.baseWeek = make([]float64, T), make([]float64, T)
 		for t := range T {
 			cv.Betas[t] = cp.BetaAt(n + t)
