@@ -152,6 +152,9 @@ func printEffect(w io.Writer, s fitSummary) {
 		for _, c := range s.Channels {
 			if v, ok := s.Drifting[c.Name]; ok {
 				fmt.Fprintf(w, "drifting %s: effectiveness in the last week %+.0f%% against its history average (ROI above is over the history, marginal ROI at the last week's)\n", c.Name, 100*(v-1))
+				if v < 0.05 {
+					fmt.Fprintf(w, "warning: %s's effectiveness falls to about zero by the last week, so its horizon response is about zero: check the last weeks' data and spend; hint: compare with fit --effect-check\n", c.Name)
+				}
 			}
 		}
 	}
