@@ -165,6 +165,9 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 			}
 			ec.PathLow[t], ec.PathHigh[t] = quantileOf(col, 0.05), quantileOf(col, 0.95)
 		}
+		if ec.Low < 0.05 {
+			res.Notes = append(res.Notes, fmt.Sprintf("%s: the drifting fit cannot settle its effectiveness in the last week (the 90%% interval reaches zero)", c.Name))
+		}
 		res.Channels = append(res.Channels, ec)
 	}
 	// Rolling-origin backtest over the last weeks, both specifications.
