@@ -2,8 +2,19 @@ package model
 
 import (
 	"math/rand/v2"
+	"syscall"
 	"testing"
 )
+
+// cpuSeconds is the process's user and system CPU time so far: on a
+// machine shared with other work it moves far less than the wall clock.
+func cpuSeconds() float64 {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		return 0
+	}
+	return float64(ru.Utime.Nano()+ru.Stime.Nano()) / 1e9
+}
 
 // BenchmarkEffect compares the constant and the all-drifting model on the
 // 156×6 bench panel: one full fit (6 starts, one worker; the drifting one
@@ -14,7 +25,10 @@ import (
 // drifting all six. The goal is the drifting model within 3× the constant
 // one.
 //
-//	go test ./model -run '^$' -bench Effect -benchtime 1x -count 5 -cpu 2
+// Besides the wall time it reports cpu-s/op, the CPU time per iteration,
+// steadier on a shared machine.
+//
+//	go test ./model -run '^$' -bench Effect -benchtime 1x -count 3 -cpu 2 -timeout 60m
 //
 // refits is the replicates per iteration of the refits benchmark.
 var refits = 1000
@@ -33,6 +47,8 @@ func BenchmarkEffect(b *testing.B) {
 			}
 		}
 		b.Run(name+"/fit", func(b *testing.B) {
+			c0 := cpuSeconds()
+			defer func() { b.ReportMetric((cpuSeconds()-c0)/float64(b.N), "cpu-s/op") }()
 			for range b.N {
 				if _, err := d.Fit(y, FitSettings{Seed: 1, Workers: 1}); err != nil {
 					b.Fatal(err)
@@ -45,6 +61,8 @@ func BenchmarkEffect(b *testing.B) {
 				b.Fatal(err)
 			}
 			b.ResetTimer()
+			c0 := cpuSeconds()
+			defer func() { b.ReportMetric((cpuSeconds()-c0)/float64(b.N), "cpu-s/op") }()
 			for range b.N {
 				for i := range refits {
 					rng := rand.New(rand.NewPCG(7, uint64(i)))
