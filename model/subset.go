@@ -232,20 +232,33 @@ func fitExtended(d *Design, y []float64, rows []int, lifts []Lift, set FitSettin
 		}
 	}
 	if d.Spec.AnyDrifting() {
-		var pilot *FitResult
-		var err error
-		if pri, pilot, err = d.resolveSteps(y, rows, lifts, pri, set); err != nil {
+		pri2, pilot, err := d.resolveSteps(y, rows, lifts, pri, set)
+		if err != nil {
 			return nil, err
 		}
-		if pilot != nil && set.Warm == nil {
-			// The constant pilot has searched the starts; the drifting fit
-			// starts from its parameters (and the box's centre).
-			warm := pilot.Params.Clone()
-			set.Warm, set.Starts = &warm, 2
-			if set.NoiseSD == 0 && pilot.NoiseSD > 0 {
-				set.NoiseSD = pilot.NoiseSD
+		if pilot != nil {
+			// The constant pilot has searched the starts; the varying fit
+			// starts from its parameters (and the box's centre), with the
+			// resolved step priors, and counts the pilot's work.
+			set2 := set
+			set2.Priors, set2.NoPriors = pri2, false
+			if set.Warm == nil {
+				warm := pilot.Params.Clone()
+				set2.Warm, set2.Starts = &warm, 2
 			}
+			if set2.NoiseSD == 0 && pilot.NoiseSD > 0 {
+				set2.NoiseSD = pilot.NoiseSD
+			}
+			fr, err := fitExtended(d, y, rows, lifts, set2)
+			if err != nil {
+				return nil, err
+			}
+			fr.StartsTried += pilot.StartsTried
+			fr.Converged += pilot.Converged
+			fr.Evaluations += pilot.Evaluations
+			return fr, nil
 		}
+		pri = pri2
 	}
 	sigma, estimate := set.NoiseSD, false
 	if sigma == 0 && (pri != nil || len(lifts) > 0) {
