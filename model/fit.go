@@ -210,6 +210,12 @@ type FitSettings struct {
 	// NoPriors makes the fit a plain least-squares fit (no prior
 	// penalties; lift rows, if any, still count).
 	NoPriors bool
+	// ProbeEvaluations, if positive, is the evaluation budget of every
+	// start but the first: cheap probes of other basins beside a warm
+	// start (with Warm set, the probes are all seeded random points, no
+	// centre of the box). A probe that ends best without converging is returned with
+	// its status, for the caller to continue.
+	ProbeEvaluations int
 }
 
 // FitResult is a fitted model with the fit's diagnostics.
@@ -230,6 +236,12 @@ type FitResult struct {
 	NoiseSD float64 `json:"noise_sd,omitempty"`
 	Penalty float64 `json:"penalty,omitempty"`
 }
+
+// FlatTol is the fit's varpro.Settings.FlatTol: a search creeping along a
+// flat valley stops once 10 steps gained less than 1e-6 of the objective,
+// 1e-6·n in units of −2 log-likelihood — far below what the data can tell
+// apart (common practice, no source).
+const FlatTol = 1e-6
 
 // ErrNoFit is returned when no start produced a finite fit.
 var ErrNoFit = errors.New("model: no start produced a usable fit")
@@ -265,7 +277,11 @@ func (d *Design) multiStart(y []float64, starts [][]float64, solvers []*varpro.S
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				r, err := s.Solve(starts[i], varpro.Settings{MaxEvaluations: set.MaxEvaluations})
+				budget := set.MaxEvaluations
+				if i > 0 && set.ProbeEvaluations > 0 {
+					budget = set.ProbeEvaluations
+				}
+				r, err := s.Solve(starts[i], varpro.Settings{MaxEvaluations: budget, FlatTol: FlatTol})
 				out[i] = outcome{r, err}
 			}
 		}()
@@ -341,12 +357,15 @@ func (d *Design) starts(set FitSettings) [][]float64 {
 		out = append(out, th)
 	}
 	logScale := d.logScaled()
+	// Probes beside a warm start are all seeded random points: the centre
+	// of the box is the same for every call, so it probes nothing new.
+	probes := set.Warm != nil && set.ProbeEvaluations > 0
 	for i := 0; len(out) < n; i++ {
 		th := make([]float64, len(lo))
 		rng := rand.New(rand.NewPCG(set.Seed, uint64(i)))
 		for j := range th {
 			u := 0.5
-			if i > 0 {
+			if i > 0 || probes {
 				u = rng.Float64()
 			}
 			if logScale[j] {

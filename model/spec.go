@@ -232,6 +232,16 @@ func LoadSpecFile(path string) (*SpecFile, error) {
 	return &f, nil
 }
 
+// ParseSpecFile reads a YAML spec strictly from data; source names it in
+// messages.
+func ParseSpecFile(data []byte, source string) (*SpecFile, error) {
+	var f SpecFile
+	if err := strictyaml.Decode(data, source, &f); err != nil {
+		return nil, err
+	}
+	return &f, nil
+}
+
 // Validate checks kinds and bounds; source names the spec in messages.
 func (s *Spec) Validate(source string) error {
 	bad := func(field, format string, a ...any) error {

@@ -76,20 +76,5 @@ func trueWorld(t testing.TB, sim *model.Simulated) *groundtruth.World {
 	return model.TrueWorld(d, sim.Params)
 }
 
-// trueLift is what a perfect lift test of channel k over weeks [from, to]
-// measures in the world (the KPI caused inside the window by the window's
-// spend), by groundtruth: media with the spend minus media with the
-// window's spend zeroed, summed over the window.
-func trueLift(w *groundtruth.World, k, from, to int) float64 {
-	c := &w.Channels[k]
-	x0 := append([]float64(nil), c.Spend...)
-	for t := from; t <= to; t++ {
-		x0[t] = 0
-	}
-	m1, m0 := c.Media(c.Spend), c.Media(x0)
-	var s float64
-	for t := from; t <= to; t++ {
-		s += m1[t] - m0[t]
-	}
-	return s
-}
+// trueLift is what a perfect lift test measures in the world (groundtruth).
+func trueLift(w *groundtruth.World, k, from, to int) float64 { return w.Lift(k, from, to) }

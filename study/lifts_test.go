@@ -113,6 +113,15 @@ func TestLiftCheckReportsBothFits(t *testing.T) {
 	if !(mv.Calibrated < mv.Uncalibrated) || math.Abs(mv.Calibrated-w.ROI(display)) >= math.Abs(mv.Uncalibrated-w.ROI(display)) {
 		t.Errorf("display ROI %.3f -> %.3f did not move towards the truth %.3f", mv.Uncalibrated, mv.Calibrated, w.ROI(display))
 	}
+	// validate --calibrate on a design that already has the lifts compares
+	// with a refit without them: the same ROIs as the check's.
+	cr, err := validation.Calibrate(cal, sim.Panel.KPI, fit, tests, validation.Settings{Seed: 1, Workers: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(cr.After[display]-mv.Calibrated) > 1e-12*mv.Calibrated || math.Abs(cr.Before[display]-mv.Uncalibrated) > 1e-3*mv.Uncalibrated {
+		t.Errorf("--calibrate: ROI %.4f -> %.4f, the check's %.4f -> %.4f", cr.Before[display], cr.After[display], mv.Uncalibrated, mv.Calibrated)
+	}
 	th := validation.DefaultThresholds()
 	cs := r.Checks(th)
 	if len(cs) != 1 || !strings.Contains(cs[0].Detail, "graded on the fit without them") || cs[0].Status == validation.Pass {

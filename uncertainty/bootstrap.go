@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"sync"
 
 	"sluice/internal/varpro"
@@ -15,10 +16,19 @@ import (
 const DefaultDraws = 1000
 
 // DefaultRefitStarts is the number of starts of a replicate's refit: the
-// warm start, the centre of the box and one seeded random start (common
-// practice, no source: enough to leave the full fit's basin when another
-// is clearly better, at three times the cost of a warm refit).
-const DefaultRefitStarts = 3
+// warm start and one seeded random probe (common practice, no source: a
+// replicate can leave the full fit's basin when another is clearly better,
+// at about twice the cost of a warm refit; each replicate's probe is a
+// different point of the box, so over the run the box is searched widely).
+const DefaultRefitStarts = 2
+
+// ProbeEvaluations is the evaluation budget of a refit's starts other than
+// the warm one (model.FitSettings.ProbeEvaluations): about what a warm
+// refit takes (15–30 evaluations under the priors), enough for a start in a
+// clearly better basin to overtake it, a tenth of a cold start's cost
+// otherwise (common practice, no source). A probe that wins without
+// converging is continued (attempt 2).
+const ProbeEvaluations = 25
 
 // Bootstrap is a residual bootstrap of the response model: the problem (a
 // design and its KPI) and how to resample and refit it. Every field but
@@ -35,10 +45,13 @@ const DefaultRefitStarts = 3
 // are smaller than the errors by about that factor). Each lift test's
 // measured lift is redrawn as measured + se·z (z standard normal from the
 // same stream), so the experiments' own uncertainty enters the replicates.
-// y*_i is refitted with the full fit's priors and noise SD from
-// RefitStarts starts: the full fit (warm), the centre of the box and random
-// starts seeded by the stream, keeping the best, so a replicate can leave
-// the full fit's basin when the data favour another. A refit that stops
+// y*_i is refitted with the full fit's noise SD and its priors, each prior's
+// centre redrawn from the prior itself (perturbPriors: randomized maximum
+// likelihood, so what only the prior settles varies as the prior says), from
+// RefitStarts starts: the full fit (warm) and random starts seeded by the
+// stream (probes of ProbeEvaluations each), keeping the best, so a
+// replicate can leave the full fit's basin when the data favour another.
+// A refit that stops
 // without converging (varpro.Converged) is continued from where it
 // stopped, with the search's damping reset; if that does not converge
 // either, it is retried with the full multi-start: Starts starts, the
@@ -156,7 +169,7 @@ func (b *Bootstrap) Run(ctx context.Context) (*Draws, error) {
 	inflation := math.Sqrt(float64(d.N) / float64(d.N-p))
 	out := &Draws{Header: Header{
 		Format: FormatVersion, Seed: b.Seed, Method: method, BlockLength: bl, BlockLengthAuto: auto,
-		BlockRule: rule, Inflation: inflation, RefitStarts: refitStarts,
+		BlockRule: rule, Inflation: inflation, RefitStarts: refitStarts, PriorDraws: full.Priors != nil,
 		Draws: draws, Shard: b.Shard.String(), Model: NewModelInfo(d, starts),
 		FullFit: FullFit{Params: full.Params.Clone(), SSE: full.SSE, Status: full.Status.String(),
 			Priors: full.Priors, NoiseSD: full.NoiseSD, Penalty: full.Penalty, LiftTests: len(d.Lifts)},
@@ -229,12 +242,19 @@ type refitter struct {
 	inflation   float64
 }
 
-func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
+// kpi writes replicate i's KPI, ŷ + c·e*, into ystar (eb is scratch) and
+// returns the replicate's stream, advanced past the residuals' draws.
+func (r *refitter) kpi(i int, ystar, eb []float64) *rand.Rand {
 	rng := Stream(r.seed, i)
 	r.res.Residuals(eb, r.full.Residuals, rng)
 	for t, f := range r.full.Fitted {
 		ystar[t] = f + r.inflation*eb[t]
 	}
+	return rng
+}
+
+func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
+	rng := r.kpi(i, ystar, eb)
 	retrySeed := rng.Uint64()
 	startSeed := rng.Uint64()
 	d := r.d
@@ -248,14 +268,18 @@ func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
 			return Replicate{Index: i, Failed: true, Reason: err.Error()}
 		}
 	}
+	priors := perturbPriors(r.full.Priors, rng)
 	warm := &r.full.Params
 	var why []string
 	for attempt := 1; attempt <= 3; attempt++ {
-		set := model.FitSettings{Warm: warm, MaxEvaluations: r.evals, Priors: r.full.Priors,
+		set := model.FitSettings{Warm: warm, MaxEvaluations: r.evals, Priors: priors,
 			NoiseSD: r.full.NoiseSD, NoPriors: r.full.Priors == nil}
 		switch attempt {
 		case 1:
-			set.Seed, set.Starts = startSeed, r.refitStarts
+			set.Seed, set.Starts, set.ProbeEvaluations = startSeed, r.refitStarts, ProbeEvaluations
+			if r.evals > 0 && r.evals < ProbeEvaluations {
+				set.ProbeEvaluations = r.evals // a probe never gets more than a start
+			}
 		case 3:
 			set.Seed, set.Starts = retrySeed, r.starts
 		}
@@ -284,6 +308,40 @@ func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
 	}
 	return Replicate{Index: i, Failed: true, Reason: fmt.Sprintf("warm refit: %s; continued: %s; %d-start retry: %s",
 		why[0], why[1], r.starts, why[2])}
+}
+
+// perturbPriors returns the priors with every centre redrawn from the
+// prior itself: mean + sd·z (log-normal: median·e^(log_sd·z)), z standard
+// normal from rng, in a fixed order (per channel: decay, peak, half
+// saturation, shape, ROI). Refitting resampled data under redrawn prior
+// centres is randomized maximum likelihood ("randomize, then optimize";
+// exact posterior draws for a linear-Gaussian model, approximate here):
+// a parameter the data cannot settle then varies over the replicates as
+// widely as its prior says, instead of sitting at the prior's centre in
+// every replicate, which would make the bands look certain where only the
+// prior speaks. nil stays nil.
+func perturbPriors(p model.Priors, rng *rand.Rand) model.Priors {
+	if p == nil {
+		return nil
+	}
+	out := make(model.Priors, len(p))
+	for k, c := range p {
+		c.Decay.Mean += c.Decay.SD * rng.NormFloat64()
+		if c.Peak != nil {
+			pk := *c.Peak
+			pk.Mean += pk.SD * rng.NormFloat64()
+			c.Peak = &pk
+		}
+		c.HalfSaturation.Median *= math.Exp(c.HalfSaturation.LogSD * rng.NormFloat64())
+		if c.Shape != nil {
+			sh := *c.Shape
+			sh.Mean += sh.SD * rng.NormFloat64()
+			c.Shape = &sh
+		}
+		c.ROI.Mean += c.ROI.SD * rng.NormFloat64()
+		out[k] = c
+	}
+	return out
 }
 
 func finiteParams(p model.Params) bool {

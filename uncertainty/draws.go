@@ -45,6 +45,9 @@ type Header struct {
 	BlockRule *RegressionBlock `json:"block_rule,omitempty"`
 	// Inflation is the factor √(n/(n−p)) the resampled residuals are scaled by.
 	Inflation float64 `json:"residual_inflation,omitempty"`
+	// PriorDraws is set when every replicate refits under prior centres
+	// redrawn from the priors (randomized maximum likelihood; Bootstrap).
+	PriorDraws bool `json:"prior_draws,omitempty"`
 	// RefitStarts is the number of starts of each replicate's refit.
 	RefitStarts int       `json:"refit_starts,omitempty"`
 	Draws       int       `json:"draws"` // replicates of the whole run, all shards

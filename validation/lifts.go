@@ -326,7 +326,7 @@ func (r *LiftResult) Checks(th Thresholds) []Check {
 // in its objective (Design.FitCalibrated).
 type CalibrationResult struct {
 	Channels          []string
-	Sigma             float64   // residual SD of the uncalibrated fit, the scale of the lift rows' weights
+	Sigma             float64   // the scale of the lift rows' weights (residual SD)
 	Before, After     []float64 // ROI per channel
 	LiftBefore        []float64 // per test, the model's estimate before and after
 	LiftAfter         []float64
@@ -337,8 +337,26 @@ type CalibrationResult struct {
 // Calibrate refits the model with the lift tests added to the objective,
 // each weighted by the fit's residual SD over its standard error, starting
 // from the fit and the usual random starts.
+//
+// When the design already carries the lift tests (--lifts puts them into
+// every fit), fit is the calibrated fit; the comparison is then with a
+// refit without them, so Before is still "the data alone" and After "with
+// the experiments".
 func Calibrate(d *model.Design, y []float64, fit *model.FitResult, lifts []LiftTest, set Settings) (*CalibrationResult, error) {
 	set = set.withDefaults()
+	if len(d.Lifts) > 0 {
+		plain, err := d.WithLifts(nil)
+		if err != nil {
+			return nil, err
+		}
+		warm := fit.Params.Clone()
+		unc, err := plain.Fit(y, model.FitSettings{Seed: set.Seed, Workers: set.Workers, Starts: d.Spec.Starts, Warm: &warm,
+			Priors: fit.Priors, NoiseSD: fit.NoiseSD, NoPriors: fit.Priors == nil})
+		if err != nil {
+			return nil, fmt.Errorf("refit without the lift tests: %w", err)
+		}
+		return compareCalibration(plain, y, unc, fit, lifts, fit.NoiseSD, set), nil
+	}
 	st := model.FitStats(y, fit.Residuals, d.Spec.NumParams())
 	if !(st.Sigma > 0) {
 		return nil, errors.New("calibration: the fit leaves no residual variation to weight the lift tests against")
@@ -352,7 +370,13 @@ func Calibrate(d *model.Design, y []float64, fit *model.FitResult, lifts []LiftT
 	if err != nil {
 		return nil, fmt.Errorf("calibrated fit: %w", err)
 	}
-	r := &CalibrationResult{Sigma: st.Sigma, Fit: cal, InSampleR2: st.R2,
+	return compareCalibration(d, y, fit, cal, lifts, st.Sigma, set), nil
+}
+
+// compareCalibration fills a CalibrationResult from an uncalibrated fit and
+// a calibrated one.
+func compareCalibration(d *model.Design, y []float64, fit, cal *model.FitResult, lifts []LiftTest, sigma float64, set Settings) *CalibrationResult {
+	r := &CalibrationResult{Sigma: sigma, Fit: cal, InSampleR2: model.FitStats(y, fit.Residuals, d.Spec.NumParams()).R2,
 		R2Cal: model.FitStats(y, cal.Residuals, d.Spec.NumParams()).R2}
 	before, after := d.Summarize(fit.Params, set.ValuePerKPI), d.Summarize(cal.Params, set.ValuePerKPI)
 	for k := range before {
@@ -365,5 +389,5 @@ func Calibrate(d *model.Design, y []float64, fit *model.FitResult, lifts []LiftT
 		r.LiftBefore = append(r.LiftBefore, d.LiftEffect(k, fit.Params.Channels[k], lt.From, lt.To))
 		r.LiftAfter = append(r.LiftAfter, d.LiftEffect(k, cal.Params.Channels[k], lt.From, lt.To))
 	}
-	return r, nil
+	return r
 }

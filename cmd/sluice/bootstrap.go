@@ -31,7 +31,8 @@ func bootstrapCommand() *cli.Command {
 		Flags: append(modelFlags(),
 			&cli.IntFlag{Name: "draws", Value: uncertainty.DefaultDraws, Usage: "replicates of the whole run (all shards)"},
 			&cli.StringFlag{Name: "method", Value: string(uncertainty.MovingBlock), Usage: "residual resampling: block (moving-block), stationary or wild"},
-			&cli.StringFlag{Name: "block-length", Value: "auto", Usage: "block length (mean length for stationary): auto (Politis–White on the full fit's residuals) or a number"},
+			&cli.StringFlag{Name: "block-length", Value: "auto", Usage: "block length (mean length for stationary): auto (AR(1) plug-in rule on the full fit's residuals, capped) or a number"},
+			&cli.IntFlag{Name: "refit-starts", Value: uncertainty.DefaultRefitStarts, Usage: "starts of each replicate's refit: the warm start, then seeded random probes (1: warm only, the cheapest)"},
 			&cli.StringFlag{Name: "shard", Value: "1/1", Usage: "compute only shard K of N: replicates i with i % N == K-1"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress bar and no summary line"},
 			&cli.StringFlag{Name: "out", Usage: "draws file to write (JSON Lines)"},
@@ -68,8 +69,12 @@ func bootstrapCommand() *cli.Command {
 			ctx, stop := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)
 			defer stop()
 			quiet := o.Bool("quiet")
+			rs := o.Int("refit-starts")
+			if rs < 1 || rs > 200 {
+				return withHint(fmt.Errorf("--refit-starts %d must be between 1 and 200", rs), "1 is the warm start alone; the default is %d", uncertainty.DefaultRefitStarts)
+			}
 			b := &uncertainty.Bootstrap{Design: in.Design, Y: in.Panel.KPI, Method: method, BlockLength: bl,
-				Draws: draws, Seed: in.Seed, Shard: shard, Workers: in.Workers}
+				Draws: draws, Seed: in.Seed, Shard: shard, Workers: in.Workers, RefitStarts: rs}
 			bar := progressBar(c, quiet)
 			if bar != nil {
 				b.Progress = bar.update

@@ -71,7 +71,11 @@ func runDemo(c *cli.Context) error {
 	}
 	in := &modelInput{DataPath: data, Panel: p, Spec: spec, Design: d, ValuePerKPI: 1, Seed: c.Uint64("seed"),
 		Workers: max(1, c.Int("workers")), DataSHA256: hash}
-	fr, err := d.Fit(p.KPI, model.FitSettings{Seed: in.Seed, Workers: in.Workers})
+	// The example's lift tests are in every fit, as --lifts puts them.
+	if err := in.loadLifts(filepath.Join(dir, "lifts.csv")); err != nil {
+		return err
+	}
+	fr, err := in.Design.Fit(p.KPI, model.FitSettings{Seed: in.Seed, Workers: in.Workers})
 	if err != nil {
 		return err
 	}

@@ -168,6 +168,25 @@ func (w *World) ROI(k int) float64 {
 	return w.Contribution(k) / sx
 }
 
+// Lift is what a perfect lift test of channel k over weeks [from, to]
+// (inclusive) measures: the KPI caused inside the window by the window's
+// spend — media with the spend minus media with the window's spend zeroed,
+// summed over the window (carryover after the window is not seen by such a
+// test; spend before it cancels).
+func (w *World) Lift(k, from, to int) float64 {
+	c := &w.Channels[k]
+	x0 := append([]float64(nil), c.Spend...)
+	for t := from; t <= to; t++ {
+		x0[t] = 0
+	}
+	m1, m0 := c.Media(c.Spend), c.Media(x0)
+	var s float64
+	for t := from; t <= to; t++ {
+		s += m1[t] - m0[t]
+	}
+	return s
+}
+
 // CurrentSpend is channel k's mean spend over the last CurrentWeeks weeks.
 func (w *World) CurrentSpend(k int) float64 {
 	x := w.Channels[k].Spend
@@ -244,14 +263,23 @@ func (w *World) Optimum(value, budget float64, lo, hi []float64) ([]float64, err
 		return nil, fmt.Errorf("groundtruth: budget %g outside [%g, %g]", budget, slo, shi)
 	}
 	H := float64(w.Horizon)
+	const grid = 400
+	// The responses on the grid do not depend on ν: compute them once.
+	rg := make([][]float64, K)
+	for k := range K {
+		rg[k] = make([]float64, grid+1)
+		step := (hi[k] - lo[k]) / grid
+		for i := range rg[k] {
+			rg[k][i] = w.Response(k, lo[k]+float64(i)*step)
+		}
+	}
 	best := func(k int, nu float64) float64 {
 		f := func(s float64) float64 { return value*w.Response(k, s) - (H+nu)*s }
-		const grid = 400
-		bs, bv := lo[k], f(lo[k])
 		step := (hi[k] - lo[k]) / grid
+		bs, bv := lo[k], value*rg[k][0]-(H+nu)*lo[k]
 		for i := 1; i <= grid; i++ {
 			s := lo[k] + float64(i)*step
-			if v := f(s); v > bv {
+			if v := value*rg[k][i] - (H+nu)*s; v > bv {
 				bs, bv = s, v
 			}
 		}

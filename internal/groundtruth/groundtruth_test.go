@@ -39,7 +39,7 @@ func testWorld() *World {
 // (NumPy/SciPy, run live). Tolerances: mean path, ROI and response are the
 // same sums in another order, 1e-10 relative; the marginal ROI is a central
 // difference of step 1e-4·s against the analytic derivative, whose error is
-// O(h²·R''') — 1e-6 relative is ample; the optimum: SLSQP and the grid
+// O(h²·R”') — 1e-6 relative is ample; the optimum: SLSQP and the grid
 // search stop at different points of a flat maximum, so the plans agree
 // to 1% of the budget and the objective to 1e-6 relative, ours never more
 // than that below.
@@ -72,6 +72,8 @@ func TestAgainstNumPy(t *testing.T) {
 		ps = append(ps, [2]float64{float64(p.k), p.s})
 	}
 	in["points"] = ps
+	liftWindows := [][3]int{{0, 10, 17}, {1, 40, 45}, {2, 90, 103}}
+	in["lifts"] = liftWindows
 	stdin, _ := json.Marshal(in)
 	out := refcheck.Python(t, []string{"numpy", "scipy"}, "testdata/truth_ref.py", stdin)
 	var ref struct {
@@ -80,6 +82,7 @@ func TestAgainstNumPy(t *testing.T) {
 		Response     []float64 `json:"response"`
 		MROI         []float64 `json:"mroi"`
 		Optimum      []float64 `json:"optimum"`
+		Lifts        []float64 `json:"lifts"`
 		OptimumValue float64   `json:"optimum_value"`
 	}
 	if err := json.Unmarshal(out, &ref); err != nil {
@@ -102,6 +105,11 @@ func TestAgainstNumPy(t *testing.T) {
 		}
 		if got := w.MarginalROI(p.k, p.s); rel(got, ref.MROI[i]) > 1e-6 || got <= 0 {
 			t.Errorf("marginal ROI %d at %g: %.12g, NumPy %.12g", p.k, p.s, got, ref.MROI[i])
+		}
+	}
+	for i, l := range liftWindows {
+		if got := w.Lift(l[0], l[1], l[2]); rel(got, ref.Lifts[i]) > 1e-10 || got <= 0 {
+			t.Errorf("lift %v: %.12g, NumPy %.12g", l, got, ref.Lifts[i])
 		}
 	}
 	opt, err := w.Optimum(1, budget, lo, hi)

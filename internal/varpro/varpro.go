@@ -87,7 +87,22 @@ type Settings struct {
 	// from reaching zero); 0 means 1e-5. The search stops early, before it
 	// stalls, when the cosine falls below EarlyGradTol.
 	GradTol float64
+	// FlatTol: the search also stops, as converged, when the objective fell
+	// by less than this share over the last FlatIterations accepted steps
+	// while no cosine exceeds FlatGradTol — a search creeping along a flat
+	// curved valley (a MAP fit's priors make such valleys) whose remaining
+	// gain is far below the objective's sampling variation (of order 1/n
+	// relative: 1e-6 of the objective is 1e-6·n in units of −2 log-likelihood).
+	// Zero turns the rule off (the certified problems need every digit);
+	// statistical fits use 1e-6 (model.Design.Fit).
+	FlatTol float64
 }
+
+// FlatIterations and FlatGradTol qualify Settings.FlatTol.
+const (
+	FlatIterations = 10
+	FlatGradTol    = 1e-2
+)
 
 // Status says why a search stopped.
 type Status int
@@ -376,6 +391,8 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 	grad := make([]float64, m)
 	trial := make([]float64, m)
 	bestCoef := append([]float64(nil), s.coef...)
+	flatTol := set.FlatTol
+	var history []float64 // objective after each accepted step
 	mu := 1e-3
 	stall := 0
 	status := MaxEvaluations
@@ -403,6 +420,11 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 		}
 		// Stop early only when clearly stationary; near the round-off floor
 		// the search stalls instead and the looser test below decides.
+		if n := len(history); flatTol > 0 && n >= FlatIterations && maxCos <= FlatGradTol &&
+			history[n-FlatIterations]-rss <= flatTol*rss {
+			status = Converged
+			break
+		}
 		if len(free) == 0 || maxCos <= EarlyGradTol || rss == 0 {
 			status = Converged
 			if degenerate(jtj, nonzero(jtj)) {
@@ -431,6 +453,7 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 				copy(theta, trial)
 				copy(bestCoef, s.coef)
 				rss = tr
+				history = append(history, rss)
 				mu = math.Max(mu/3, 1e-12)
 				improved = true
 				if rel < relTol {
@@ -456,6 +479,11 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 			case degenerate(jtj, nonzero(jtj)):
 				status = Degenerate
 			case converged(jtj, grad, rss, theta, p, gradTol):
+				status = Converged
+			case flatTol > 0 && converged(jtj, grad, rss, theta, p, FlatGradTol):
+				// Steps no longer reduce the objective and the gradient is
+				// within the flat rule's tolerance: as stationary as the
+				// rule asks.
 				status = Converged
 			default:
 				status = NoProgress

@@ -90,6 +90,16 @@ roi = [float(np.sum(media(c, np.array(c["spend"], dtype=float))) / np.sum(c["spe
 resp = [response(chs[k], s) for k, s in w["points"]]
 mr = [mroi(chs[k], s) for k, s in w["points"]]
 
+
+def lift(c, a, b):
+    x = np.array(c["spend"], dtype=float)
+    x0 = x.copy()
+    x0[a:b + 1] = 0
+    return float(np.sum(media(c, x)[a:b + 1] - media(c, x0)[a:b + 1]))
+
+
+lifts = [lift(chs[k], a, b) for k, a, b in w["lifts"]]
+
 v, B = w["value"], w["budget"]
 lo, hi = np.array(w["lo"]), np.array(w["hi"])
 
@@ -100,7 +110,7 @@ def neg(p):
 
 best = None
 rng = np.random.default_rng(7)
-starts = [lo + (hi - lo) * f for f in (0.5,)] + [lo + (hi - lo) * rng.random(len(chs)) for _ in range(6)]
+starts = [lo + (hi - lo) * f for f in (0.5,)] + [lo + (hi - lo) * rng.random(len(chs)) for _ in range(2)]
 for p0 in starts:
     p0 = p0 * B / p0.sum()
     p0 = np.clip(p0, lo, hi)
@@ -110,4 +120,4 @@ for p0 in starts:
     if r.success and (best is None or r.fun < best.fun):
         best = r
 json.dump({"mean_path": y.tolist(), "roi": roi, "response": resp, "mroi": mr,
-           "optimum": best.x.tolist(), "optimum_value": float(-best.fun)}, sys.stdout)
+           "optimum": best.x.tolist(), "optimum_value": float(-best.fun), "lifts": lifts}, sys.stdout)
