@@ -423,6 +423,16 @@ func (d *Design) WithDrifting(names []string) (*Design, error) {
 	return &c, nil
 }
 
+// WithSeasonal is WithDrifting for a seasonal effectiveness.
+func (d *Design) WithSeasonal(names []string) (*Design, error) {
+	c := *d
+	c.Spec.Channels = append([]ChannelSpec(nil), d.Spec.Channels...)
+	if err := c.Spec.SetSeasonal(names); err != nil {
+		return nil, err
+	}
+	return &c, nil
+}
+
 // WithConstant returns a shallow copy of d with every channel's
 // effectiveness constant.
 func (d *Design) WithConstant() *Design {

@@ -25,6 +25,9 @@ type EffectSettings struct {
 	// last weeks: Origins origins OriginWeeks apart, each tested on the
 	// OriginWeeks after it; 0 means 3 and 13.
 	Origins, OriginWeeks int
+	// Kind is the varying specification tested against the constant one:
+	// model.EffectDrifting (the default) or model.EffectSeasonal.
+	Kind string
 	// Alpha is the family-wise false-alarm share over all channels: a
 	// channel is named as changed when |log change| / SD exceeds the
 	// normal quantile 1 − Alpha/(2K), K channels (Bonferroni); 0 means 0.10.
@@ -45,6 +48,9 @@ func (s EffectSettings) withDefaults() EffectSettings {
 	if s.Alpha <= 0 || s.Alpha >= 1 {
 		s.Alpha = 0.10
 	}
+	if s.Kind == "" {
+		s.Kind = model.EffectDrifting
+	}
 	return s
 }
 
@@ -53,6 +59,8 @@ func (s EffectSettings) withDefaults() EffectSettings {
 // its 90% interval from the bootstrap, its z (log Change over the
 // bootstrap SD of log Change) and whether the change is named.
 type EffectChannel struct {
+	Kind     string    `json:"kind"` // drifting or seasonal
+	Horizon  int       `json:"horizon_weeks,omitempty"`
 	Name     string    `json:"name"`
 	Change   float64   `json:"change"`
 	Low      float64   `json:"low"`  // 5% of the bootstrap
@@ -66,6 +74,7 @@ type EffectChannel struct {
 
 // EffectResult is the effectiveness evidence of a panel.
 type EffectResult struct {
+	Kind     string          `json:"kind"`
 	Channels []EffectChannel `json:"channels"`
 	ZCrit    float64         `json:"z_critical"`
 	Alpha    float64         `json:"alpha"`
@@ -99,18 +108,34 @@ type EffectResult struct {
 // over the last weeks compares the drifting and constant specifications
 // out of sample, where a late change matters. d is the user's design (its
 // own effectiveness settings are replaced by all-drifting and all-constant).
+//
+// With Kind seasonal the model is fitted with every channel seasonal and
+// the statistic is each channel's effectiveness over the next horizon over
+// its yearly average (model.Design.SeasonLift): what a decision for the
+// coming weeks gains from the season.
 func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectResult, error) {
 	set = set.withDefaults()
-	dd, err := d.WithDrifting([]string{"all"})
+	var dd *model.Design
+	var err error
+	stat := func(p model.Params, k int) float64 { return dd.EffectChange(p, k) }
+	switch set.Kind {
+	case model.EffectDrifting:
+		dd, err = d.WithDrifting([]string{"all"})
+	case model.EffectSeasonal:
+		dd, err = d.WithSeasonal([]string{"all"})
+		stat = func(p model.Params, k int) float64 { return dd.SeasonLift(p, k) }
+	default:
+		return nil, fmt.Errorf("effectiveness: kind %q is not drifting or seasonal", set.Kind)
+	}
 	if err != nil {
 		return nil, err
 	}
 	K := len(d.Spec.Channels)
-	res := &EffectResult{Alpha: set.Alpha, Tried: set.Replicates}
+	res := &EffectResult{Kind: set.Kind, Alpha: set.Alpha, Tried: set.Replicates}
 	res.ZCrit = distuv.UnitNormal.Quantile(1 - set.Alpha/(2*float64(K)))
 	fit, err := dd.Fit(y, model.FitSettings{Seed: set.Seed, Workers: set.Workers})
 	if err != nil {
-		return nil, fmt.Errorf("drifting fit: %w", err)
+		return nil, fmt.Errorf("%s fit: %w", set.Kind, err)
 	}
 	res.Fit = fit
 	// Bootstrap of the drifting fit.
@@ -135,18 +160,18 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 		}
 		res.Replicates++
 		for k := range K {
-			changes[k] = append(changes[k], dd.EffectChange(fr.Params, k))
+			changes[k] = append(changes[k], stat(fr.Params, k))
 			paths[k] = append(paths[k], dd.EffectPath(fr.Params, k))
 		}
 	}
 	if res.Replicates < 10 {
-		return nil, fmt.Errorf("effectiveness: only %d of %d bootstrap refits of the drifting fit succeeded", res.Replicates, res.Tried)
+		return nil, fmt.Errorf("effectiveness: only %d of %d bootstrap refits of the %s fit succeeded", res.Replicates, res.Tried, set.Kind)
 	}
 	if res.Replicates < res.Tried {
 		res.Notes = append(res.Notes, fmt.Sprintf("%d of %d bootstrap refits failed and are left out", res.Tried-res.Replicates, res.Tried))
 	}
 	for k, c := range d.Spec.Channels {
-		ec := EffectChannel{Name: c.Name, Change: dd.EffectChange(fit.Params, k), Path: dd.EffectPath(fit.Params, k)}
+		ec := EffectChannel{Kind: set.Kind, Horizon: d.Spec.Horizon, Name: c.Name, Change: stat(fit.Params, k), Path: dd.EffectPath(fit.Params, k)}
 		logs := make([]float64, len(changes[k]))
 		for i, v := range changes[k] {
 			logs[i] = math.Log(math.Max(v, 1e-9))
@@ -166,7 +191,7 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 			ec.PathLow[t], ec.PathHigh[t] = quantileOf(col, 0.05), quantileOf(col, 0.95)
 		}
 		if ec.Low < 0.05 {
-			res.Notes = append(res.Notes, fmt.Sprintf("%s: the drifting fit cannot settle its effectiveness in the last week (the 90%% interval reaches zero)", c.Name))
+			res.Notes = append(res.Notes, fmt.Sprintf("%s: the %s fit cannot settle its effectiveness (the 90%% interval reaches zero)", c.Name, set.Kind))
 		}
 		res.Channels = append(res.Channels, ec)
 	}
@@ -181,7 +206,7 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 		end := min(origin+set.OriginWeeks, n)
 		fd, err := dd.Head(origin).Fit(y[:origin], model.FitSettings{Seed: set.Seed, Workers: set.Workers})
 		if err != nil {
-			return nil, fmt.Errorf("drifting backtest fit on the first %d weeks: %w", origin, err)
+			return nil, fmt.Errorf("%s backtest fit on the first %d weeks: %w", set.Kind, origin, err)
 		}
 		fc, err := dc.Head(origin).Fit(y[:origin], model.FitSettings{Seed: set.Seed, Workers: set.Workers})
 		if err != nil {
@@ -202,12 +227,12 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 	res.Prefer = model.EffectConstant
 	for _, c := range res.Channels {
 		if c.Changed && (len(res.Origins) == 0 || res.BacktestRatio <= 1) {
-			res.Prefer = model.EffectDrifting
+			res.Prefer = set.Kind
 		}
 	}
 	for _, c := range res.Channels {
 		if c.Changed && res.Prefer == model.EffectConstant {
-			res.Notes = append(res.Notes, fmt.Sprintf("%s's effectiveness changed by the bootstrap, but the drifting specification forecasts the last weeks worse (RMSE ratio %.2f): the constant one is kept", c.Name, res.BacktestRatio))
+			res.Notes = append(res.Notes, fmt.Sprintf("%s's effectiveness is %s by the bootstrap, but that specification forecasts the last weeks worse (RMSE ratio %.2f): the constant one is kept", c.Name, set.Kind, res.BacktestRatio))
 			break
 		}
 	}
@@ -222,15 +247,20 @@ func (c EffectChannel) Words() string {
 	if c.Change < 1 {
 		dir = "below"
 	}
+	if c.Kind == model.EffectSeasonal {
+		return fmt.Sprintf("effectiveness over the next %d weeks %.0f%% %s its yearly average (90%% interval %+.0f%% to %+.0f%%)",
+			c.Horizon, 100*math.Abs(c.Change-1), dir, 100*(c.Low-1), 100*(c.High-1))
+	}
 	return fmt.Sprintf("effectiveness in the last week %.0f%% %s its history average (90%% interval %+.0f%% to %+.0f%%)",
 		100*math.Abs(c.Change-1), dir, 100*(c.Low-1), 100*(c.High-1))
 }
 
 // Checks turns the result into evidence: one stability check per channel
-// ("effect/drift", a warning when its effectiveness has changed, since the
-// constant model then reads the history's average rather than today's) and
-// one accuracy check ("effect/backtest", informational: the backtest RMSE
-// ratio).
+// ("effect/drift", or "effect/season" for the seasonal kind: a warning when
+// its effectiveness has changed, since the constant model then reads the
+// history's average rather than today's or the coming season's) and one
+// accuracy check ("effect/backtest" or "effect/season_backtest",
+// informational: the backtest RMSE ratio).
 func (r *EffectResult) Checks() []Check {
 	var out []Check
 	for _, c := range r.Channels {
@@ -238,15 +268,22 @@ func (r *EffectResult) Checks() []Check {
 		if c.Changed {
 			st = Warn
 		}
-		out = append(out, check("effect/drift", Stability, c.Name, st, c.Z, r.ZCrit, "%s; |z| %.2f against %.2f (family-wise false-alarm share %.0f%% over the channels)",
+		out = append(out, check(r.checkName("effect/drift", "effect/season"), Stability, c.Name, st, c.Z, r.ZCrit, "%s; |z| %.2f against %.2f (family-wise false-alarm share %.0f%% over the channels)",
 			c.Words(), math.Abs(c.Z), r.ZCrit, 100*r.Alpha))
 	}
 	if len(r.Origins) > 0 {
-		out = append(out, check("effect/backtest", Accuracy, Global, Pass, r.BacktestRatio, 1,
-			"drifting over constant specification, RMSE of the forecasts from %d rolling origins over the last weeks: %.3f; preferred: %s",
+		out = append(out, check(r.checkName("effect/backtest", "effect/season_backtest"), Accuracy, Global, Pass, r.BacktestRatio, 1,
+			r.Kind+" over constant specification, RMSE of the forecasts from %d rolling origins over the last weeks: %.3f; preferred: %s",
 			len(r.Origins), r.BacktestRatio, r.Prefer))
 	}
 	return out
+}
+
+func (r *EffectResult) checkName(drifting, seasonal string) string {
+	if r.Kind == model.EffectSeasonal {
+		return seasonal
+	}
+	return drifting
 }
 
 func sdOf(x []float64) float64 {

@@ -37,9 +37,13 @@ func fitCommand() *cli.Command {
 			}
 			sum := newFitSummary(in, fr)
 			if o.Bool("effect-check") {
-				if sum.Effect, err = validation.Effectiveness(in.Design, in.Panel.KPI,
-					validation.EffectSettings{Seed: in.Seed, Workers: in.Workers}); err != nil {
-					return err
+				for _, kind := range []string{model.EffectDrifting, model.EffectSeasonal} {
+					er, err := validation.Effectiveness(in.Design, in.Panel.KPI,
+						validation.EffectSettings{Seed: in.Seed, Workers: in.Workers, Kind: kind})
+					if err != nil {
+						return err
+					}
+					sum.Effect = append(sum.Effect, er)
 				}
 			}
 			if out := o.String("out"); out != "" {
@@ -72,9 +76,9 @@ type fitSummary struct {
 	// Drifting is each drifting channel's effectiveness in the last week
 	// over its history average (from the fit); Effect the effectiveness
 	// check (fit --effect-check).
-	Drifting map[string]float64       `json:"drifting,omitempty"`
-	Seasonal map[string]float64       `json:"seasonal,omitempty"` // next horizon's effectiveness over the year's mean
-	Effect   *validation.EffectResult `json:"effectiveness,omitempty"`
+	Drifting map[string]float64         `json:"drifting,omitempty"`
+	Seasonal map[string]float64         `json:"seasonal,omitempty"` // next horizon's effectiveness over the year's mean
+	Effect   []*validation.EffectResult `json:"effectiveness,omitempty"`
 }
 
 type inputHashes struct {
@@ -163,12 +167,15 @@ func printEffect(w io.Writer, s fitSummary) {
 			fmt.Fprintf(w, "seasonal %s: effectiveness over the next %d weeks %+.0f%% against its yearly average (marginal ROI above is the next weeks')\n", c.Name, s.Horizon, 100*(v-1))
 		}
 	}
-	e := s.Effect
-	if e == nil {
-		return
+	for _, e := range s.Effect {
+		printEffectCheck(w, e)
 	}
-	fmt.Fprintf(w, "\neffectiveness check (every channel drifting, %d of %d bootstrap refits, named when |z| > %.2f: %.0f%% family-wise false alarms):\n",
-		e.Replicates, e.Tried, e.ZCrit, 100*e.Alpha)
+}
+
+// printEffectCheck prints one effectiveness check (drifting or seasonal).
+func printEffectCheck(w io.Writer, e *validation.EffectResult) {
+	fmt.Fprintf(w, "\neffectiveness check, %s (every channel %s, %d of %d bootstrap refits, named when |z| > %.2f: %.0f%% family-wise false alarms):\n",
+		e.Kind, e.Kind, e.Replicates, e.Tried, e.ZCrit, 100*e.Alpha)
 	named := 0
 	for _, c := range e.Channels {
 		mark := "steady"
@@ -178,13 +185,13 @@ func printEffect(w io.Writer, s fitSummary) {
 		fmt.Fprintf(w, "  %s %s: %s, z %+.1f\n", mark, c.Name, c.Words(), c.Z)
 	}
 	if len(e.Origins) > 0 {
-		fmt.Fprintf(w, "  backtest over the last weeks (%d origins): drifting/constant forecast RMSE %.3f\n", len(e.Origins), e.BacktestRatio)
+		fmt.Fprintf(w, "  backtest over the last weeks (%d origins): %s/constant forecast RMSE %.3f\n", len(e.Origins), e.Kind, e.BacktestRatio)
 	}
 	for _, n := range e.Notes {
 		fmt.Fprintf(w, "  note: %s\n", n)
 	}
-	if named > 0 && e.Prefer == "drifting" {
-		fmt.Fprintln(w, "  evidence favours the drifting specification: hint: refit with --drifting naming the changed channels (or all)")
+	if named > 0 && e.Prefer == e.Kind {
+		fmt.Fprintf(w, "  evidence favours the %s specification: hint: refit with --%s naming the changed channels (or all)\n", e.Kind, e.Kind)
 	} else {
 		fmt.Fprintf(w, "  evidence favours the %s specification\n", e.Prefer)
 	}

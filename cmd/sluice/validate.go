@@ -32,7 +32,7 @@ func validateCommand() *cli.Command {
 			&cli.StringFlag{Name: "limits", Usage: "threshold overrides, e.g. holdout_wmape=0.08:0.15,break_even=1.2 (warn:fail)"},
 			&cli.BoolFlag{Name: "json", Usage: "print the evidence as JSON instead of the table"},
 			&cli.StringFlag{Name: "out", Usage: "write the evidence (JSON) to this file"},
-			&cli.BoolFlag{Name: "effect-check", Value: true, Usage: "test whether each channel's effectiveness changed over the history (effect/drift, effect/backtest); --effect-check=false skips it"},
+			&cli.BoolFlag{Name: "effect-check", Value: true, Usage: "test whether each channel's effectiveness drifted over the history or follows the season (effect/drift, effect/season, and their backtests); --effect-check=false skips them"},
 		),
 		Action: runValidate,
 	}
@@ -51,8 +51,9 @@ type validateOutput struct {
 	Calibration []calibratedROI       `json:"calibration,omitempty"`
 	Pending     []string              `json:"pending_forecasts,omitempty"`
 	Notes       []string              `json:"notes"`
-	// Effect is the effectiveness check (nil with --effect-check=false).
-	Effect *validation.EffectResult `json:"effectiveness,omitempty"`
+	// Effect is the effectiveness checks, drifting then seasonal (none
+	// with --effect-check=false).
+	Effect []*validation.EffectResult `json:"effectiveness,omitempty"`
 }
 
 type statusCount struct {
@@ -154,23 +155,27 @@ func runValidate(c *cli.Context) error {
 		return err
 	}
 	if o.Bool("effect-check") {
-		if out.Effect, err = validation.Effectiveness(in.Design, in.Panel.KPI,
-			validation.EffectSettings{Seed: in.Seed, Workers: in.Workers}); err != nil {
-			return err
-		}
-		res.Evidence.Checks = append(res.Evidence.Checks, out.Effect.Checks()...)
-		for _, n := range out.Effect.Notes {
-			out.Notes = append(out.Notes, "effectiveness: "+n)
-		}
-		if out.Effect.Prefer == model.EffectDrifting && !in.Spec.AnyDrifting() {
-			var names []string
-			for _, c := range out.Effect.Channels {
-				if c.Changed {
-					names = append(names, c.Name)
-				}
+		for _, kind := range []string{model.EffectDrifting, model.EffectSeasonal} {
+			er, err := validation.Effectiveness(in.Design, in.Panel.KPI,
+				validation.EffectSettings{Seed: in.Seed, Workers: in.Workers, Kind: kind})
+			if err != nil {
+				return err
 			}
-			out.Notes = append(out.Notes, fmt.Sprintf("effectiveness changed for %s and the drifting specification forecasts the last weeks better: refit with --drifting %s",
-				strings.Join(names, ", "), strings.Join(names, ",")))
+			out.Effect = append(out.Effect, er)
+			res.Evidence.Checks = append(res.Evidence.Checks, er.Checks()...)
+			for _, n := range er.Notes {
+				out.Notes = append(out.Notes, "effectiveness: "+n)
+			}
+			if er.Prefer == kind && !in.Spec.AnyDrifting() {
+				var names []string
+				for _, c := range er.Channels {
+					if c.Changed {
+						names = append(names, c.Name)
+					}
+				}
+				out.Notes = append(out.Notes, fmt.Sprintf("effectiveness is %s for %s and that specification forecasts the last weeks better: refit with --%s %s",
+					kind, strings.Join(names, ", "), kind, strings.Join(names, ",")))
+			}
 		}
 	}
 	out.Checks = res.Evidence.Checks
