@@ -111,7 +111,7 @@ func runEffectWorld(t *testing.T, sim *model.Simulated, drifting bool) effectRun
 // option on), median ROI interval width within 25% of it (the drifting
 // model has more coefficients, so somewhat wider intervals are expected).
 //
-// Rerun: go test ./study -run EffectDecision -v   (about two minutes of CPU)
+// Rerun: go test ./study -run EffectDecision -v   (45 s on 2 cores)
 func TestEffectDecision(t *testing.T) {
 	if testing.Short() {
 		t.Skip("simulation study: 8 worlds, two bootstraps each")
