@@ -131,8 +131,14 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 		return nil, err
 	}
 	K := len(d.Spec.Channels)
-	res := &EffectResult{Kind: set.Kind, Alpha: set.Alpha, Tried: set.Replicates}
+	res := &EffectResult{Kind: set.Kind, Alpha: set.Alpha, Tried: set.Replicates, Prefer: model.EffectConstant}
 	res.ZCrit = distuv.UnitNormal.Quantile(1 - set.Alpha/(2*float64(K)))
+	if need := dd.Spec.NumParams() + 10; d.N < need {
+		res.Tried = 0
+		res.Notes = append(res.Notes, fmt.Sprintf("the %s check did not run: with every channel %s the model has %d parameters and needs at least %d weeks, the data have %d",
+			set.Kind, set.Kind, dd.Spec.NumParams(), need, d.N))
+		return res, nil
+	}
 	fit, err := dd.Fit(y, model.FitSettings{Seed: set.Seed, Workers: set.Workers})
 	if err != nil {
 		return nil, fmt.Errorf("%s fit: %w", set.Kind, err)

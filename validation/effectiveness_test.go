@@ -1,6 +1,7 @@
 package validation
 
 import (
+	"strings"
 	"testing"
 
 	"sluice/model"
@@ -182,5 +183,27 @@ func TestEffectivenessSeasonal(t *testing.T) {
 	}
 	if float64(alarms) > 0.1*float64(4*nFlat) || float64(prefer) > 0.2*float64(nFlat) {
 		t.Errorf("false alarms: %d of %d channel-worlds, seasonal preferred in %d of %d worlds", alarms, 4*nFlat, prefer, nFlat)
+	}
+}
+
+// A history too short for the all-drifting model: the check says so and
+// prefers nothing new, rather than fitting more parameters than weeks allow.
+func TestEffectivenessTooShort(t *testing.T) {
+	tr := effectWorld(7, 0.8, 0.4, 0.01)
+	tr.Weeks = 40
+	sim, err := model.Simulate(tr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d, err := model.NewDesign(sim.Panel, tr.Spec())
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := Effectiveness(d, sim.Panel.KPI, EffectSettings{Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(r.Channels) != 0 || r.Prefer != model.EffectConstant || len(r.Notes) != 1 || !strings.Contains(r.Notes[0], "needs at least") {
+		t.Errorf("short history: channels %d, prefer %s, notes %q", len(r.Channels), r.Prefer, r.Notes)
 	}
 }
