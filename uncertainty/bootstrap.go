@@ -268,7 +268,7 @@ func (r *refitter) replicate(i int, ystar, eb []float64) Replicate {
 			return Replicate{Index: i, Failed: true, Reason: err.Error()}
 		}
 	}
-	priors := perturbPriors(r.full.Priors, rng)
+	priors := clampPriors(perturbPriors(r.full.Priors, rng), d.Spec)
 	warm := &r.full.Params
 	var why []string
 	for attempt := 1; attempt <= 3; attempt++ {
@@ -342,6 +342,26 @@ func perturbPriors(p model.Priors, rng *rand.Rand) model.Priors {
 		out[k] = c
 	}
 	return out
+}
+
+// clampPriors moves redrawn centres into the parameters' boxes (and an
+// ROI centre to ≥ 0): the box is the prior's support, so a centre outside
+// it only pins the parameter on its bound.
+func clampPriors(p model.Priors, spec model.Spec) model.Priors {
+	clamp := func(v float64, r model.Range) float64 { return math.Min(r[1], math.Max(r[0], v)) }
+	for k := range p {
+		c, cs := &p[k], spec.Channels[k]
+		c.Decay.Mean = clamp(c.Decay.Mean, cs.Decay)
+		if c.Peak != nil {
+			c.Peak.Mean = clamp(c.Peak.Mean, cs.Peak)
+		}
+		c.HalfSaturation.Median = clamp(c.HalfSaturation.Median, cs.HalfSaturation)
+		if c.Shape != nil {
+			c.Shape.Mean = clamp(c.Shape.Mean, cs.Shape)
+		}
+		c.ROI.Mean = math.Max(0, c.ROI.Mean)
+	}
+	return p
 }
 
 func finiteParams(p model.Params) bool {

@@ -315,3 +315,22 @@ func TestPerturbPriors(t *testing.T) {
 		t.Error("nil priors became non-nil")
 	}
 }
+
+// Redrawn centres outside a parameter's box are moved onto it, an ROI
+// centre below zero to zero; centres inside stay.
+func TestClampPriors(t *testing.T) {
+	spec := model.NewSpec([]string{"a", "b"}, nil)
+	sh := model.Normal{Mean: 9, SD: 1}
+	sh2 := model.Normal{Mean: 2, SD: 1}
+	p := model.Priors{
+		{Decay: model.Normal{Mean: -0.2, SD: 0.3}, HalfSaturation: model.LogNormal{Median: 100, LogSD: 1}, Shape: &sh, ROI: model.Normal{Mean: -3, SD: 1}},
+		{Decay: model.Normal{Mean: 0.4, SD: 0.3}, HalfSaturation: model.LogNormal{Median: 0.5, LogSD: 1}, Shape: &sh2, ROI: model.Normal{Mean: 2, SD: 1}},
+	}
+	q := clampPriors(p, spec)
+	if a := q[0]; a.Decay.Mean != 0 || a.HalfSaturation.Median != 10 || a.Shape.Mean != 3 || a.ROI.Mean != 0 {
+		t.Errorf("outside the box: %+v, shape %v; want decay 0, half saturation 10, shape 3, ROI 0", a, a.Shape.Mean)
+	}
+	if b := q[1]; b.Decay.Mean != 0.4 || b.HalfSaturation.Median != 0.5 || b.Shape.Mean != 2 || b.ROI.Mean != 2 {
+		t.Errorf("inside the box changed: %+v", b)
+	}
+}

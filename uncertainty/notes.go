@@ -88,8 +88,8 @@ const (
 )
 
 // Notes lists what is suspicious about the draws: many failed refits, an
-// automatic block length held at its cap, parameters that pile up on a
-// bound of their box.
+// automatic block length held at its cap, a full-fit parameter on a bound
+// of its box, parameters that pile up on a bound over the replicates.
 func (d *Draws) Notes() []Note {
 	var out []Note
 	if n, f := len(d.Replicates), d.Failed(); n > 0 && float64(f) > FailedShareNote*float64(n) {
@@ -101,6 +101,29 @@ func (d *Draws) Notes() []Note {
 		out = append(out, Note{Text: fmt.Sprintf("the block length is held at its cap of %g weeks (the rule asked %.1f; residual lag-1 autocorrelation %.2f): the residuals carry dependence the model misses",
 			r.Cap, r.Rule, r.Lag1),
 			Hint: "look for a missing control, carryover or seasonality; --method stationary with a longer --block-length widens the bands"})
+	}
+	for k, c := range d.Header.Model.Channels {
+		if k >= len(d.Header.FullFit.Params.Channels) {
+			break
+		}
+		cp := d.Header.FullFit.Params.Channels[k]
+		var which []string
+		for _, p := range []struct {
+			name string
+			v    float64
+			box  []float64
+		}{{"decay", cp.Decay, c.Decay}, {"peak", cp.Peak, c.Peak}, {"half_saturation", cp.HalfSat, c.HalfSaturation}, {"shape", cp.Shape, c.Shape}} {
+			if len(p.box) == 2 && p.box[0] < p.box[1] {
+				tol := 1e-6 * (p.box[1] - p.box[0])
+				if p.v <= p.box[0]+tol || p.v >= p.box[1]-tol {
+					which = append(which, fmt.Sprintf("%s %.4g (box [%g, %g])", p.name, p.v, p.box[0], p.box[1]))
+				}
+			}
+		}
+		if len(which) > 0 {
+			out = append(out, Note{Text: fmt.Sprintf("the full fit has channel %s on a bound of its box: %s", c.Name, strings.Join(which, ", ")),
+				Hint: fmt.Sprintf("a bound that is not a real limit decides this channel: widen it in the spec (channels.%s), or give it a prior from other evidence", c.Name)})
+		}
 	}
 	for _, b := range d.OnBound() {
 		var which []string

@@ -10,11 +10,13 @@ import (
 // Bound shares and notes on hand-made draws whose counts are known by
 // construction: 4 successful replicates, decay on its upper bound in 3
 // (75%), half saturation on its lower bound in 1 (25%, not above the note
-// threshold), shape fixed by its box (not counted), 2 failed of 6 (33%).
+// threshold), shape fixed by its box (not counted), 2 failed of 6 (33%);
+// the full fit's decay sits on its upper bound.
 func TestOnBoundAndNotes(t *testing.T) {
 	h := Header{Model: ModelInfo{Channels: []ChannelInfo{{Name: "search", Adstock: "geometric", Saturation: "hill",
 		Decay: []float64{0, 0.85}, HalfSaturation: []float64{0.05, 10}, Shape: []float64{2, 2}}}},
-		BlockRule: &RegressionBlock{Lag1: 0.9, Rule: 20, Cap: 11, Capped: true, Length: 11}}
+		BlockRule: &RegressionBlock{Lag1: 0.9, Rule: 20, Cap: 11, Capped: true, Length: 11},
+		FullFit:   FullFit{Params: model.Params{Channels: []model.ChannelParams{{Decay: 0.85, HalfSat: 1, Shape: 2, Beta: 1}}}}}
 	rep := func(i int, decay, kappa float64) Replicate {
 		p := model.Params{Channels: []model.ChannelParams{{Decay: decay, HalfSat: kappa, Shape: 2, Beta: 1}}, Fixed: []float64{1}}
 		return Replicate{Index: i, Params: &p, Attempts: 1}
@@ -34,12 +36,13 @@ func TestOnBoundAndNotes(t *testing.T) {
 		}
 	}
 	all := strings.Join(text, "\n")
-	for _, want := range []string{"2 of 6 bootstrap refits failed (33%)", "held at its cap of 11 weeks", "channel search: replicates on a bound of the box: decay 75%;"} {
+	for _, want := range []string{"2 of 6 bootstrap refits failed (33%)", "held at its cap of 11 weeks", "channel search: replicates on a bound of the box: decay 75%;",
+		"the full fit has channel search on a bound of its box: decay 0.85 (box [0, 0.85])"} {
 		if !strings.Contains(all, want) {
 			t.Errorf("notes lack %q:\n%s", want, all)
 		}
 	}
-	if len(notes) != 3 || strings.Contains(all, "half_saturation") {
-		t.Errorf("want exactly the three notes, got:\n%s", all)
+	if len(notes) != 4 || strings.Contains(all, "half_saturation") || strings.Contains(all, "shape") {
+		t.Errorf("want exactly the four notes, got:\n%s", all)
 	}
 }
