@@ -641,8 +641,8 @@ func Merge(parts []*Draws) (*Draws, error) {
 		}
 	}
 	if len(missing) > 0 {
-		return nil, fmt.Errorf("uncertainty: merge: %d of %d replicates are in none of the files (first missing: %d); a shard is missing",
-			len(missing), h.Draws, missing[0])
+		return nil, fmt.Errorf("uncertainty: merge: %d of %d replicates are in none of the files (first missing: %d); %s",
+			len(missing), h.Draws, missing[0], NameMissing(missing, commonShardCount(parts)))
 	}
 	out.Replicates = make([]Replicate, 0, h.Draws)
 	next := make([]int, len(parts))
@@ -652,6 +652,20 @@ func Merge(parts []*Draws) (*Draws, error) {
 		next[p]++
 	}
 	return out, nil
+}
+
+// commonShardCount is the N of the parts' shards K/N when they all share
+// it, else 0.
+func commonShardCount(parts []*Draws) int {
+	n := 0
+	for _, d := range parts {
+		s, err := ParseShard(d.Header.Shard)
+		if err != nil || (n != 0 && s.N != n) {
+			return 0
+		}
+		n = s.N
+	}
+	return n
 }
 
 // headerKey is the header's bytes without its shard: what the parts of one

@@ -198,7 +198,8 @@ func TestMergeErrors(t *testing.T) {
 		want  string
 	}{
 		{"none", nil, "no draws files given"},
-		{"missing", []*Draws{a, c}, "1 of 3 replicates are in none of the files (first missing: 1)"},
+		{"missing", []*Draws{a, c}, "1 of 3 replicates are in none of the files (first missing: 1); shard 2/3 is missing"},
+		{"missing, mixed split", []*Draws{a, h2}, "1 of 3 replicates are in none of the files (first missing: 2); a shard is missing"},
 		{"twice", []*Draws{a, b, c, b}, "replicate 1 is in both p2.jsonl and p2.jsonl"},
 		{"other seed", []*Draws{a, seed, c}, "p2.jsonl is not from the same run as p1.jsonl (seed 10, not 9)"},
 	} {
