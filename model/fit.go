@@ -18,7 +18,11 @@ type ChannelParams struct {
 	Peak    float64 `json:"peak,omitempty"`  // θ, delayed adstock only
 	HalfSat float64 `json:"half_saturation"` // κ, multiple of the steady-state adstock of mean spend (Design.HalfSatLevel)
 	Shape   float64 `json:"shape,omitempty"` // s, Hill only
-	Beta    float64 `json:"beta"`            // KPI at full saturation per week, ≥ 0
+	Beta    float64 `json:"beta"`            // KPI at full saturation per week, ≥ 0; at the end of the history if the effectiveness drifts
+	// Effect is the coefficient's path when the effectiveness varies
+	// (drifting or seasonal; see BetaAt), nil for a constant one. A
+	// pointer keeps ChannelParams comparable.
+	Effect *EffectWeights `json:"effect,omitempty"`
 }
 
 // Params are all fitted parameters of the model.
@@ -31,7 +35,15 @@ type Params struct {
 
 // Clone returns a deep copy of p.
 func (p Params) Clone() Params {
-	return Params{Channels: append([]ChannelParams(nil), p.Channels...), Fixed: append([]float64(nil), p.Fixed...)}
+	q := Params{Channels: append([]ChannelParams(nil), p.Channels...), Fixed: append([]float64(nil), p.Fixed...)}
+	for k := range q.Channels {
+		if e := q.Channels[k].Effect; e != nil {
+			c := *e
+			c.Weights = append([]float64(nil), e.Weights...)
+			q.Channels[k].Effect = &c
+		}
+	}
+	return q
 }
 
 // FixedNames names the fixed columns in order.
@@ -400,10 +412,30 @@ func (d *Design) pack(p Params) []float64 {
 
 func (d *Design) unpack(theta, coef, fixed []float64) Params {
 	p := Params{Channels: make([]ChannelParams, len(d.Spec.Channels)), Fixed: append([]float64(nil), fixed...)}
+	first, _ := d.Spec.columnLayout()
 	j := 0
 	for k := range d.Spec.Channels {
 		p.Channels[k], j = d.channelParams(theta, j, k)
-		p.Channels[k].Beta = coef[k]
+		c := &d.Spec.Channels[k]
+		if !c.Varying() {
+			p.Channels[k].Beta = coef[first[k]]
+			continue
+		}
+		b := append([]float64(nil), coef[first[k]:first[k]+c.EffectBasis]...)
+		cp := &p.Channels[k]
+		cp.Effect = &EffectWeights{Weights: b, Weeks: d.N}
+		if c.Drifting() {
+			cp.Beta = b[len(b)-1] // B_J(1) = 1: the end of the history
+			continue
+		}
+		// Seasonal: Beta is the mean coefficient over the next horizon
+		// (a summary; the horizon response reads every week's).
+		cp.Effect.Period = d.Spec.Period
+		cp.Beta = 0
+		for t := d.N; t < d.N+d.Spec.Horizon; t++ {
+			cp.Beta += cp.BetaAt(t)
+		}
+		cp.Beta /= float64(d.Spec.Horizon)
 	}
 	return p
 }
@@ -470,10 +502,16 @@ func (d *Design) Predict(p Params) []float64 {
 	}
 	m := make([]float64, d.N)
 	for k, cp := range p.Channels {
-		if cp.Beta == 0 {
+		if cp.Beta == 0 && cp.Effect == nil {
 			continue
 		}
 		d.Media(m, k, cp)
+		if cp.Effect != nil {
+			for t, v := range m {
+				y[t] += cp.BetaAt(t) * v
+			}
+			continue
+		}
 		for t, v := range m {
 			y[t] += cp.Beta * v
 		}
@@ -485,10 +523,13 @@ func (d *Design) Predict(p Params) []float64 {
 type workspace struct {
 	d      *Design
 	solver *varpro.Solver
-	a      [][]float64 // adstock per channel
-	dl, dp [][]float64 // ∂a/∂λ, ∂a/∂θ
-	lr     [][]float64 // Hill: log(K/a); exponential: exp(−a/K)
-	h      [][]float64 // saturation values
+	a      [][]float64   // adstock per channel
+	dl, dp [][]float64   // ∂a/∂λ, ∂a/∂θ
+	lr     [][]float64   // Hill: log(K/a); exponential: exp(−a/K)
+	h      [][]float64   // saturation values
+	first  []int         // first linear column of each channel
+	basis  [][][]float64 // drifting channels: [channel][j][week] B_j(t)
+	bt     []float64     // β(t) of the channel at hand (deriv)
 }
 
 func newWorkspace(d *Design, y []float64) *workspace {
@@ -502,8 +543,17 @@ func newWorkspace(d *Design, y []float64) *workspace {
 		return out
 	}
 	w.a, w.dl, w.dp, w.lr, w.h = mk(), mk(), mk(), mk(), mk()
+	var L int
+	w.first, L = d.Spec.columnLayout()
+	w.basis = make([][][]float64, K)
+	for k := range d.Spec.Channels {
+		if c := &d.Spec.Channels[k]; c.Varying() {
+			w.basis[k] = d.Spec.channelBasis(c, d.N)
+		}
+	}
+	w.bt = make([]float64, d.N)
 	lo, hi := d.bounds()
-	prob := &varpro.Problem{Y: y, Fixed: d.Fixed, NumVarying: K, NonNeg: true, Lower: lo, Upper: hi,
+	prob := &varpro.Problem{Y: y, Fixed: d.Fixed, NumVarying: L, NonNeg: true, Lower: lo, Upper: hi,
 		Columns: w.columns, Deriv: w.deriv}
 	s, err := varpro.NewSolver(prob)
 	if err != nil {
@@ -523,7 +573,7 @@ func (w *workspace) columns(theta []float64, cols [][]float64) {
 		cp, j = d.channelParams(theta, j, k)
 		d.adstock(w.a[k], w.dl[k], w.dp[k], k, cp)
 		K := d.HalfSatLevel(k, cp)
-		a, lr, h, col := w.a[k], w.lr[k], w.h[k], cols[k]
+		a, lr, h, col := w.a[k], w.lr[k], w.h[k], cols[w.first[k]]
 		if c.Saturation == SaturationHill {
 			s := cp.Shape
 			for t, v := range a {
@@ -541,6 +591,13 @@ func (w *workspace) columns(theta []float64, cols [][]float64) {
 				lr[t], h[t], col[t] = e, 1-e, 1-e
 			}
 		}
+		// A drifting channel's columns are B_j(t)·sat_t.
+		for j, b := range w.basis[k] {
+			cj := cols[w.first[k]+j]
+			for t, v := range h {
+				cj[t] = b[t] * v
+			}
+		}
 	}
 }
 
@@ -548,7 +605,21 @@ func (w *workspace) deriv(theta, coef []float64, dst [][]float64) {
 	d := w.d
 	j := 0
 	for k, c := range d.Spec.Channels {
-		beta := coef[k]
+		// β(t): the coefficient, or Σ_j b_j B_j(t) for a drifting channel.
+		bt := w.bt
+		if w.basis[k] == nil {
+			for t := range bt {
+				bt[t] = coef[w.first[k]]
+			}
+		} else {
+			clear(bt)
+			for j, b := range w.basis[k] {
+				cj := coef[w.first[k]+j]
+				for t, v := range b {
+					bt[t] += cj * v
+				}
+			}
+		}
 		m := d.MeanSpend[k]
 		a, lr, h := w.a[k], w.lr[k], w.h[k]
 		cp := ChannelParams{Decay: theta[j]}
@@ -588,6 +659,7 @@ func (w *workspace) deriv(theta, coef []float64, dst [][]float64) {
 				sa = e / K
 				sK = -v / (K * K) * e
 			}
+			beta := bt[t]
 			dst[jl][t] = beta * (sa*w.dl[k][t] + sK*kl)
 			if jp >= 0 {
 				dst[jp][t] = beta * (sa*w.dp[k][t] + sK*kp)

@@ -14,14 +14,14 @@ func (d *Design) LiftEffect(k int, cp ChannelParams, from, to int) float64 {
 	if from < 0 || to >= d.N || from > to {
 		panic("model: LiftEffect: window out of range")
 	}
-	if cp.Beta == 0 {
+	if cp.Beta == 0 && cp.Effect == nil {
 		return 0
 	}
 	m := d.Media(make([]float64, d.N), k, cp)
 	m0 := d.withSpendZeroed(k, from, to).Media(make([]float64, d.N), k, cp)
 	var s float64
 	for t := from; t <= to; t++ {
-		s += m[t] - m0[t]
+		s += cp.BetaAt(t) * (m[t] - m0[t])
 	}
-	return cp.Beta * s
+	return s
 }

@@ -35,6 +35,11 @@ type ChannelPriors struct {
 	ROI            Normal    `yaml:"roi" json:"roi"`
 	// ROIDefault is set when the ROI prior is the data-scaled default.
 	ROIDefault bool `yaml:"-" json:"roi_default,omitempty"`
+	// Step is the prior SD of each step between adjacent basis weights of
+	// a drifting channel's effectiveness (KPI per week at full saturation),
+	// resolved from the spec's relative EffectStep by a constant pilot fit;
+	// 0 for a constant channel.
+	Step float64 `yaml:"-" json:"effect_step,omitempty"`
 }
 
 // Default priors (common practice, no source; weakly informative: each is

@@ -30,6 +30,11 @@ type Curve struct {
 	Carry      []float64
 	Unit       []float64
 	base       float64 // Σ sat(carry_t), the w = 0 response
+	// Betas, for a seasonal effectiveness, is the coefficient of every
+	// future week (Beta is then their mean over the horizon); nil means
+	// Beta in every week.
+	Betas    []float64
+	baseWeek []float64 // sat(carry_t), with Betas
 }
 
 // NewCurve builds channel k's curve under cp for a horizon of h weeks.
@@ -59,6 +64,13 @@ func (d *Design) NewCurve(k int, cp ChannelParams, h int) *Curve {
 	for _, a := range cv.Carry {
 		cv.base += cv.sat(a)
 	}
+	if cp.Effect != nil && cp.Effect.Period > 0 {
+		cv.Betas, cv.baseWeek = make([]float64, T), make([]float64, T)
+		for t := range T {
+			cv.Betas[t] = cp.BetaAt(n + t)
+			cv.baseWeek[t] = cv.sat(cv.Carry[t])
+		}
+	}
 	return cv
 }
 
@@ -71,6 +83,9 @@ func (c *Curve) sat(a float64) float64 {
 
 // Eval returns R(w) and dR/dw.
 func (c *Curve) Eval(w float64) (r, dr float64) {
+	if c.Betas != nil {
+		return c.evalWeekly(w)
+	}
 	if c.Beta == 0 {
 		return 0, 0
 	}
@@ -89,6 +104,23 @@ func (c *Curve) Eval(w float64) (r, dr float64) {
 		}
 	}
 	return c.Beta * (s - c.base), c.Beta * ds
+}
+
+// evalWeekly is Eval with a coefficient per week (seasonal effectiveness).
+func (c *Curve) evalWeekly(w float64) (r, dr float64) {
+	for t, carry := range c.Carry {
+		u := c.Unit[t]
+		a := carry + w*u
+		var v, da float64
+		if c.Saturation == SaturationExponential {
+			v, da, _ = ExponentialDerivs(a, c.K)
+		} else {
+			v, da, _, _ = HillDerivs(a, c.K, c.Shape)
+		}
+		r += c.Betas[t] * (v - c.baseWeek[t])
+		dr += c.Betas[t] * da * u
+	}
+	return r, dr
 }
 
 // Curves is the horizon response of every channel under every parameter

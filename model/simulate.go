@@ -48,6 +48,15 @@ type TrueChannel struct {
 	HalfSat    float64 `yaml:"half_saturation" json:"half_saturation"`
 	Shape      float64 `yaml:"shape" json:"shape,omitempty"`
 	Beta       float64 `yaml:"beta" json:"beta"`
+	// Drift is the relative change of the channel's effectiveness over the
+	// history, linear in time: β(t) = Beta·(1 + Drift·t/(n−1)), so the
+	// last week's is Beta·(1 + Drift) and the horizon's truth uses that.
+	// 0 (the default) is a constant effectiveness; it must exceed −1.
+	Drift float64 `yaml:"drift" json:"drift,omitempty"`
+	// SeasonEffect is the amplitude of a seasonal effectiveness: the
+	// coefficient is multiplied by 1 + SeasonEffect·cos(2πt/52.18), also in
+	// the horizon's weeks; 0 (the default) is none; |SeasonEffect| < 1.
+	SeasonEffect float64 `yaml:"season_effect" json:"season_effect,omitempty"`
 }
 
 // TrueControl is a control variable of a synthetic world: an AR(1) series
@@ -131,6 +140,12 @@ func (t *Truth) fill(source string) error {
 		if c.MeanSpend <= 0 || c.HalfSat <= 0 || c.Beta < 0 || c.Decay < 0 || c.Decay >= 1 || c.Dark < 0 || c.Dark >= 1 {
 			return bad(p, "needs mean_spend > 0, half_saturation > 0, beta >= 0, 0 <= decay < 1, 0 <= dark < 1")
 		}
+		if !(c.Drift > -1 && c.Drift <= 10) {
+			return bad(p+".drift", "%g must be above -1 and at most 10", c.Drift)
+		}
+		if !(math.Abs(c.SeasonEffect) < 1) {
+			return bad(p+".season_effect", "%g must lie strictly between -1 and 1", c.SeasonEffect)
+		}
 	}
 	for i, c := range t.Channels {
 		if c.Follows != "" && (!names[c.Follows] || c.Follows == c.Name) {
@@ -174,6 +189,10 @@ type Simulated struct {
 	Summary []ChannelSummary // true ROI, marginal ROI, ... per channel
 	// Response is each channel's true horizon response at current spend.
 	Response []float64
+	// EffectPath is each channel's true coefficient in every week
+	// (constant unless the truth has a drift); Params holds the last
+	// week's, which the horizon's truth uses.
+	EffectPath [][]float64
 }
 
 // ErrTruth reports a truth that cannot be simulated.
@@ -254,15 +273,53 @@ func Simulate(t *Truth) (*Simulated, error) {
 	}
 	world := TrueWorld(d, params)
 	mu := world.MeanPath()
+	// Drifting channels: the mean path takes β(t) instead of Beta, and the
+	// truth of the horizon the last week's β (the response is linear in β).
+	paths := make([][]float64, len(t.Channels))
+	contrib := make([]float64, len(t.Channels))
+	season := func(c TrueChannel, i int) float64 {
+		return 1 + c.SeasonEffect*math.Cos(2*math.Pi*float64(i)/spec.Period)
+	}
+	for k, c := range t.Channels {
+		paths[k] = make([]float64, n)
+		for i := range paths[k] {
+			paths[k][i] = c.Beta * (1 + c.Drift*float64(i)/float64(max(n-1, 1))) * season(c, i)
+		}
+		if c.Drift == 0 && c.SeasonEffect == 0 {
+			continue
+		}
+		unit := world.Channels[k]
+		unit.Beta = 1
+		for i, v := range unit.Media(unit.Spend) {
+			mu[i] += (paths[k][i] - c.Beta) * v
+			contrib[k] += paths[k][i] * v
+		}
+		end := c.Beta * (1 + c.Drift) // the drift's level at the end, without the season
+		world.Channels[k].Beta, params.Channels[k].Beta = end, end
+	}
 	noise := ar1(rng, n, t.NoiseAR)
 	sd := t.NoiseSD * meanOf(mu)
 	p.KPI = make([]float64, n)
 	for i := range mu {
 		p.KPI[i] = math.Max(0, math.Round((mu[i]+sd*noise[i])*100)/100)
 	}
-	sim := &Simulated{Panel: p, Truth: t, Params: params, Summary: trueSummary(d, params, world)}
-	for k := range params.Channels {
-		sim.Response = append(sim.Response, world.Response(k, world.CurrentSpend(k)))
+	sim := &Simulated{Panel: p, Truth: t, Params: params, Summary: trueSummary(d, params, world), EffectPath: paths}
+	driftSummary(sim.Summary, t, p.Spend, contrib)
+	for k, c := range t.Channels {
+		cur := world.CurrentSpend(k)
+		if c.SeasonEffect != 0 {
+			// Each future week's coefficient is the end level times that
+			// week's season (groundtruth's response has one coefficient).
+			beta := func(i int) float64 { return params.Channels[k].Beta * season(c, i) }
+			sim.Response = append(sim.Response, seasonalResponse(world.Channels[k], world.Horizon, cur, beta))
+			if h := 1e-4 * cur; h > 0 {
+				up := seasonalResponse(world.Channels[k], world.Horizon, cur+h, beta)
+				down := seasonalResponse(world.Channels[k], world.Horizon, cur-h, beta)
+				sim.Summary[k].MROI = (up - down) / (2 * h) / float64(world.Horizon)
+			}
+			continue
+		}
+		sim.Response = append(sim.Response, world.Response(k, cur))
 	}
 	return sim, nil
 }
@@ -316,6 +373,65 @@ func trueSummary(d *Design, p Params, w *groundtruth.World) []ChannelSummary {
 		}
 	}
 	return out
+}
+
+// seasonalResponse is groundtruth's horizon response of channel c at
+// weekly spend s over h weeks with a coefficient beta(t) per week (t
+// counted from the first week of the data): the media of the spend with
+// and without the horizon's, each week weighed by its coefficient, summed
+// over the horizon and the kernel's whole tail.
+func seasonalResponse(c groundtruth.Channel, h int, s float64, beta func(int) float64) float64 {
+	n := len(c.Spend)
+	tail := len(c.Kernel())
+	with := make([]float64, n+h+tail)
+	without := make([]float64, n+h+tail)
+	copy(with, c.Spend)
+	copy(without, c.Spend)
+	for t := n; t < n+h; t++ {
+		with[t] = s
+	}
+	c.Beta = 1
+	m1, m0 := c.Media(with), c.Media(without)
+	var r float64
+	for t := n; t < len(with); t++ {
+		r += beta(t) * (m1[t] - m0[t])
+	}
+	return r
+}
+
+// driftSummary puts the contribution and ROI over the data of drifting
+// channels (β(t) week by week, in contrib) into the truth's summary;
+// trueSummary computed them with the last week's β.
+func driftSummary(out []ChannelSummary, t *Truth, spend [][]float64, contrib []float64) {
+	drift := false
+	for k, c := range t.Channels {
+		if c.Drift == 0 && c.SeasonEffect == 0 {
+			continue
+		}
+		drift = true
+		var sx float64
+		for _, v := range spend[k] {
+			sx += v
+		}
+		out[k].Contribution = contrib[k]
+		out[k].ROI = 0
+		if sx > 0 {
+			out[k].ROI = contrib[k] / sx
+		}
+	}
+	if !drift {
+		return
+	}
+	var all float64
+	for _, s := range out {
+		all += s.Contribution
+	}
+	for k := range out {
+		out[k].ContributionShare = 0
+		if all > 0 {
+			out[k].ContributionShare = out[k].Contribution / all
+		}
+	}
 }
 
 func shapeOf(c TrueChannel) float64 {

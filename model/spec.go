@@ -42,6 +42,13 @@ type ChannelSpec struct {
 	// Prior sets the channel's priors; unset ones take the defaults
 	// (ResolvePriors).
 	Prior ChannelPriorsSpec `yaml:"prior"`
+	// Effectiveness is "constant" (default) or "drifting" (the coefficient
+	// moves smoothly over the history; see EffectDrifting), with
+	// EffectBasis basis functions (default 6) and a step prior SD of
+	// EffectStep times the constant-model coefficient (default 0.2).
+	Effectiveness string  `yaml:"effectiveness"`
+	EffectBasis   int     `yaml:"effect_basis"`
+	EffectStep    float64 `yaml:"effect_step"`
 }
 
 // channelFile is a channel as a spec file writes it: a range that is
@@ -55,6 +62,9 @@ type channelFile struct {
 	HalfSaturation *Range            `yaml:"half_saturation"`
 	Shape          *Range            `yaml:"shape"`
 	Prior          ChannelPriorsSpec `yaml:"prior"`
+	Effectiveness  string            `yaml:"effectiveness"`
+	EffectBasis    int               `yaml:"effect_basis"`
+	EffectStep     float64           `yaml:"effect_step"`
 }
 
 // Spec is the model structure: which columns play which role, and the form
@@ -145,6 +155,7 @@ func (s *Spec) fill() {
 		if c.Saturation == SaturationHill && c.Shape == (Range{}) {
 			c.Shape = DefaultShape
 		}
+		c.fillEffect()
 	}
 	s.fillSpec()
 }
@@ -176,7 +187,8 @@ func (s *Spec) ApplyFile(f *SpecFile, source string) error {
 		}
 		// Start from the defaults of the channel's kinds, then keep every
 		// range the file writes, whatever its value.
-		cs := ChannelSpec{Name: name, Adstock: cf.Adstock, Saturation: cf.Saturation, MaxLag: cf.MaxLag, Prior: cf.Prior}
+		cs := ChannelSpec{Name: name, Adstock: cf.Adstock, Saturation: cf.Saturation, MaxLag: cf.MaxLag, Prior: cf.Prior,
+			Effectiveness: cf.Effectiveness, EffectBasis: cf.EffectBasis, EffectStep: cf.EffectStep}
 		one := Spec{Channels: []ChannelSpec{cs}}
 		one.fill()
 		cs = one.Channels[0]
@@ -280,6 +292,9 @@ func (s *Spec) Validate(source string) error {
 		if c.HalfSaturation[0] <= 0 {
 			return bad(p+".half_saturation", "must be positive")
 		}
+		if err := c.validateEffect(source + ": " + p); err != nil {
+			return err
+		}
 	}
 	if s.Harm < 0 || s.Harm > 10 {
 		return bad("harmonics", "%d must be between 0 and 10", s.Harm)
@@ -331,7 +346,7 @@ func (c *ChannelSpec) numNonlinear() int {
 func (s *Spec) NumParams() int {
 	n := s.NumFixed()
 	for i := range s.Channels {
-		n += 1 + s.Channels[i].numNonlinear()
+		n += s.Channels[i].numColumns() + s.Channels[i].numNonlinear()
 	}
 	return n
 }

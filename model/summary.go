@@ -47,7 +47,7 @@ func (d *Design) Summarize(p Params, valuePerKPI float64) []ChannelSummary {
 		d.Media(m, k, cp)
 		var contrib, spend float64
 		for t := range m {
-			contrib += cp.Beta * m[t]
+			contrib += cp.BetaAt(t) * m[t] // Beta unless the effectiveness drifts
 			spend += d.Spend[k][t]
 		}
 		totalSpend += spend

@@ -89,6 +89,11 @@ type ChannelInfo struct {
 	HalfSaturation []float64 `json:"half_saturation"`
 	Shape          []float64 `json:"shape,omitempty"` // Hill only
 	MeanSpend      float64   `json:"mean_spend"`
+	// Effectiveness, EffectBasis and EffectStep are set for a drifting or
+	// seasonal channel only, so constant models' headers are unchanged.
+	Effectiveness string  `json:"effectiveness,omitempty"`
+	EffectBasis   int     `json:"effect_basis,omitempty"`
+	EffectStep    float64 `json:"effect_step,omitempty"`
 }
 
 // FullFit is the fit of the observed data that every replicate resamples
@@ -172,6 +177,9 @@ func specInfo(s model.Spec) ModelInfo {
 		}
 		if c.Saturation == model.SaturationHill {
 			ci.Shape = c.Shape[:]
+		}
+		if c.Varying() {
+			ci.Effectiveness, ci.EffectBasis, ci.EffectStep = c.Effectiveness, c.EffectBasis, c.EffectStep
 		}
 		mi.Channels = append(mi.Channels, ci)
 	}
@@ -582,6 +590,9 @@ func describeChannel(c ChannelInfo) string {
 	}
 	if c.Shape != nil {
 		s += fmt.Sprintf(" shape %v", c.Shape)
+	}
+	if c.Effectiveness != "" {
+		s += fmt.Sprintf(" effectiveness %s (basis %d, step %g)", c.Effectiveness, c.EffectBasis, c.EffectStep)
 	}
 	return s
 }

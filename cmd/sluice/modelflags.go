@@ -31,6 +31,8 @@ func modelFlags() []cli.Flag {
 		&cli.Uint64Flag{Name: "seed", Value: 1, Usage: "seed of every random stream; recorded in every output"},
 		&cli.IntFlag{Name: "workers", Value: 2, Usage: "parallel workers"},
 		&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV (channel,start,end,incremental,std_error): every fit is calibrated with it"},
+		&cli.StringFlag{Name: "drifting", Usage: "comma-separated channels (or \"all\") whose effectiveness may change smoothly over the history; the horizon uses the last week's"},
+		&cli.StringFlag{Name: "seasonal", Usage: "comma-separated channels (or \"all\") whose effectiveness follows the yearly season; the horizon uses each future week's"},
 	}
 }
 
@@ -118,6 +120,23 @@ func loadModelInput(o *opts) (*modelInput, error) {
 	}
 	if in.EventsPath, in.EventsSHA256, err = applyEvents(o, p, &spec, specEvents, specPath); err != nil {
 		return nil, err
+	}
+	if names := o.List("drifting"); len(names) > 0 {
+		if err := spec.SetDrifting(names); err != nil {
+			return nil, withHint(err, "pass --drifting with channels from --channels, or all")
+		}
+	}
+	if names := o.List("seasonal"); len(names) > 0 {
+		for _, n := range names {
+			for _, c := range spec.Channels {
+				if c.Drifting() && (n == "all" || n == c.Name) {
+					return nil, withHint(fmt.Errorf("channel %q cannot be both drifting and seasonal", c.Name), "name each channel in one of --drifting and --seasonal")
+				}
+			}
+		}
+		if err := spec.SetSeasonal(names); err != nil {
+			return nil, withHint(err, "pass --seasonal with channels from --channels, or all")
+		}
 	}
 	if err := spec.Validate("model"); err != nil {
 		return nil, err

@@ -10,6 +10,7 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/model"
 	"sluice/validation"
 )
 
@@ -32,6 +33,7 @@ func validateCommand() *cli.Command {
 			&cli.BoolFlag{Name: "json", Usage: "print the evidence as JSON instead of the table"},
 			&cli.StringFlag{Name: "out", Usage: "write the evidence (JSON) to this file"},
 			&cli.BoolFlag{Name: "strict", Usage: "exit non-zero when a check fails (after printing the evidence)"},
+			&cli.BoolFlag{Name: "effect-check", Value: true, Usage: "test whether each channel's effectiveness drifted over the history or follows the season (effect/drift, effect/season, and their backtests); --effect-check=false skips them"},
 		),
 		Action: runValidate,
 	}
@@ -50,6 +52,9 @@ type validateOutput struct {
 	Calibration []calibratedROI       `json:"calibration,omitempty"`
 	Pending     []string              `json:"pending_forecasts,omitempty"`
 	Notes       []string              `json:"notes"`
+	// Effect is the effectiveness checks, drifting then seasonal (none
+	// with --effect-check=false).
+	Effect []*validation.EffectResult `json:"effectiveness,omitempty"`
 }
 
 type statusCount struct {
@@ -149,6 +154,30 @@ func runValidate(c *cli.Context) error {
 	res, err := validation.Run(prob, th, set)
 	if err != nil {
 		return err
+	}
+	if o.Bool("effect-check") {
+		for _, kind := range []string{model.EffectDrifting, model.EffectSeasonal} {
+			er, err := validation.Effectiveness(in.Design, in.Panel.KPI,
+				validation.EffectSettings{Seed: in.Seed, Workers: in.Workers, Kind: kind})
+			if err != nil {
+				return err
+			}
+			out.Effect = append(out.Effect, er)
+			res.Evidence.Checks = append(res.Evidence.Checks, er.Checks()...)
+			for _, n := range er.Notes {
+				out.Notes = append(out.Notes, "effectiveness: "+n)
+			}
+			if er.Prefer == kind && !in.Spec.AnyDrifting() {
+				var names []string
+				for _, c := range er.Channels {
+					if c.Changed {
+						names = append(names, c.Name)
+					}
+				}
+				out.Notes = append(out.Notes, fmt.Sprintf("effectiveness is %s for %s and that specification forecasts the last weeks better: refit with --%s %s",
+					kind, strings.Join(names, ", "), kind, strings.Join(names, ",")))
+			}
+		}
 	}
 	out.Checks = res.Evidence.Checks
 	sum := res.Evidence.Summary()
