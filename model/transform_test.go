@@ -91,3 +91,21 @@ func TestSupport(t *testing.T) {
 		t.Fatalf("support [%v, %v], want [3, 6]", lo[0], hi[0])
 	}
 }
+
+// A flighted channel: bursts of awkward decimal spends separated by long
+// zero runs. Every window inside a zero run must give exactly 0 (a sum of
+// zeros), never a round-off negative; the highest window is the burst's
+// exact 4-week mean, summed by hand below. A running sum (s += x[t] - x[t-w])
+// ends at about -1.8e-13 on this series.
+func TestSupportFlighted(t *testing.T) {
+	x := []float64{0.1, 1234.57, 98765.43, 0.3, 77.7, 0, 0, 0, 0, 0, 0, 0.7, 3333.33, 0.2, 0, 0, 0, 0, 0}
+	d := &Design{Spend: [][]float64{x}}
+	lo, hi := d.Support()
+	if lo[0] != 0 {
+		t.Fatalf("low support %v, want exactly 0 over an all-zero 4-week window", lo[0])
+	}
+	want := (1234.57 + 98765.43 + 0.3 + 77.7) / 4 // the largest window, by inspection
+	if hi[0] != want {
+		t.Fatalf("high support %v, want %v", hi[0], want)
+	}
+}
