@@ -102,6 +102,7 @@ func ReadPanel(r io.Reader, source string, cols Columns) (*Panel, error) {
 		p.Controls = append([]string(nil), cols.Controls...)
 		p.Control = make([][]float64, len(cols.Controls))
 	}
+	p.DateName = l.header[l.date]
 	if err := l.readRows(p); err != nil {
 		return nil, err
 	}

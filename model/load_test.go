@@ -252,7 +252,8 @@ func TestReadPanel(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := &Panel{
-		Source: "in.csv",
+		Source:   "in.csv",
+		DateName: "week",
 		Weeks: []time.Time{
 			time.Date(2024, 2, 19, 0, 0, 0, 0, time.UTC),
 			time.Date(2024, 2, 26, 0, 0, 0, 0, time.UTC),

@@ -16,10 +16,12 @@ import (
 // draws a panel from it, so a fit can be checked against a known answer.
 type Truth struct {
 	Seed    uint64 `yaml:"seed" json:"seed"`
-	Weeks   int    `yaml:"weeks" json:"weeks"`                 // default 156
-	Start   string `yaml:"start" json:"start"`                 // first week, YYYY-MM-DD; default 2023-01-02
-	KPIName string `yaml:"kpi" json:"kpi"`                     // default "revenue"
-	Horizon int    `yaml:"horizon_weeks" json:"horizon_weeks"` // default 13
+	Weeks   int    `yaml:"weeks" json:"weeks"` // default 156
+	Start   string `yaml:"start" json:"start"` // first week, YYYY-MM-DD; default 2023-01-02
+	KPIName string `yaml:"kpi" json:"kpi"`     // default "revenue"
+	// DateName names the panel's date column; default "week".
+	DateName string `yaml:"date_column" json:"date_column,omitempty"`
+	Horizon  int    `yaml:"horizon_weeks" json:"horizon_weeks"` // default 13
 
 	Intercept float64 `yaml:"intercept" json:"intercept"` // baseline KPI per week
 	Trend     float64 `yaml:"trend" json:"trend"`         // baseline change from first to last week
@@ -47,6 +49,8 @@ type TrueChannel struct {
 	HalfSat    float64 `yaml:"half_saturation" json:"half_saturation"`
 	Shape      float64 `yaml:"shape" json:"shape,omitempty"`
 	Beta       float64 `yaml:"beta" json:"beta"`
+	// SpendShape adds flighting, a launch week and holiday spikes.
+	SpendShape `yaml:",inline"`
 }
 
 // TrueControl is a control variable of a synthetic world: an AR(1) series
@@ -130,6 +134,9 @@ func (t *Truth) fill(source string) error {
 		if c.MeanSpend <= 0 || c.HalfSat <= 0 || c.Beta < 0 || c.Decay < 0 || c.Decay >= 1 || c.Dark < 0 || c.Dark >= 1 {
 			return bad(p, "needs mean_spend > 0, half_saturation > 0, beta >= 0, 0 <= decay < 1, 0 <= dark < 1")
 		}
+		if err := c.SpendShape.check(p, t.Weeks); err != nil {
+			return fmt.Errorf("%s: %w", source, err)
+		}
 	}
 	for i, c := range t.Channels {
 		if c.Follows != "" && (!names[c.Follows] || c.Follows == c.Name) {
@@ -187,7 +194,7 @@ func Simulate(t *Truth) (*Simulated, error) {
 	rng := rand.New(rand.NewPCG(t.Seed, 0x5eed))
 	n := t.Weeks
 	start, _ := time.Parse(time.DateOnly, t.Start)
-	p := &Panel{Source: "simulated", KPIName: t.KPIName}
+	p := &Panel{Source: "simulated", KPIName: t.KPIName, DateName: t.DateName}
 	for w := range n {
 		p.Weeks = append(p.Weeks, start.AddDate(0, 0, 7*w))
 	}
@@ -212,6 +219,10 @@ func Simulate(t *Truth) (*Simulated, error) {
 					x[i] = 0
 				}
 			}
+		}
+		c.SpendShape.apply(rng, p.Weeks, x)
+		if allZero(x) {
+			return nil, fmt.Errorf("%w: channel %q is dark in every week: its flighting and launch week leave no week with spend", ErrTruth, c.Name)
 		}
 		scale := c.MeanSpend / meanOf(x)
 		for i := range x {
