@@ -67,6 +67,12 @@ func (o *opts) fromConfig(name string) bool {
 	return !o.c.IsSet(name) && o.v.IsSet(name)
 }
 
+// isSet reports whether the flag was given on the command line, in the
+// environment or in sluice.yaml (rather than left at its default).
+func (o *opts) isSet(name string) bool {
+	return o.c.IsSet(name) || o.v.IsSet(name)
+}
+
 func (o *opts) String(name string) string {
 	if o.fromConfig(name) {
 		return o.v.GetString(name)
