@@ -8,10 +8,11 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"strconv"
 	"strings"
 	"time"
+
+	"sluice/internal/boundedio"
 )
 
 // Columns says which columns of the file play which role. Columns of the
@@ -53,7 +54,7 @@ func (e *DataError) Error() string {
 // LoadPanel reads the weekly panel in the CSV file at path (see ReadPanel).
 // Messages name the file as path was given.
 func LoadPanel(path string, cols Columns) (*Panel, error) {
-	f, err := os.Open(path)
+	f, err := boundedio.Open(path, boundedio.MaxInput)
 	if err != nil {
 		return nil, err
 	}

@@ -3,12 +3,12 @@ package optimize
 import (
 	"fmt"
 	"math"
-	"os"
 	"slices"
 	"strings"
 
 	"go.yaml.in/yaml/v3"
 
+	"sluice/internal/boundedio"
 	"sluice/internal/strictyaml"
 )
 
@@ -39,10 +39,34 @@ type Plan struct {
 	Margin       float64
 	ValuePerKPI  float64
 
-	source string
-	order  []string              // channel keys in file order
-	nodes  map[string]*yaml.Node // key path → key node, for positions
+	source                          string
+	valueSet, marginSet, horizonSet bool
+	order                           []string              // channel keys in file order
+	nodes                           map[string]*yaml.Node // key path → key node, for positions
 }
+
+// MaxHorizonWeeks bounds a plan's horizon as the model spec bounds its own.
+const MaxHorizonWeeks = 104
+
+// ValueSet and MarginSet report whether the file gave value_per_kpi and
+// margin (rather than leaving the defaults of 1).
+func (p *Plan) ValueSet() bool  { return p.valueSet }
+func (p *Plan) MarginSet() bool { return p.marginSet }
+
+// HorizonSet reports whether the file gave horizon_weeks.
+func (p *Plan) HorizonSet() bool { return p.horizonSet }
+
+// Locate returns "file:line:column" of key (a dotted path such as
+// "value_per_kpi") in the plan, or the file name when the key is absent.
+func (p *Plan) Locate(key string) string {
+	if n := p.nodes[key]; n != nil {
+		return fmt.Sprintf("%s:%d:%d", p.source, n.Line, n.Column)
+	}
+	return p.source
+}
+
+// Source is the plan's file name, for messages.
+func (p *Plan) Source() string { return p.source }
 
 // BudgetRule says how the total budget is set.
 type BudgetRule struct {
@@ -108,7 +132,7 @@ type groupFile struct {
 
 // LoadPlan reads and checks the plan file at path.
 func LoadPlan(path string) (*Plan, error) {
-	data, err := os.ReadFile(path)
+	data, err := boundedio.ReadFile(path, boundedio.MaxInput)
 	if err != nil {
 		return nil, err
 	}
@@ -153,10 +177,11 @@ func ParsePlan(data []byte, source string) (*Plan, error) {
 		return nil
 	}
 	if f.HorizonWeeks != nil {
-		if *f.HorizonWeeks < 1 {
-			return nil, bad("horizon_weeks", "horizon %d weeks must be at least 1", *f.HorizonWeeks)
+		if *f.HorizonWeeks < 1 || *f.HorizonWeeks > MaxHorizonWeeks {
+			return nil, bad("horizon_weeks", "horizon %d weeks must be between 1 and %d (two years), as in the model spec", *f.HorizonWeeks, MaxHorizonWeeks)
 		}
 		p.HorizonWeeks = *f.HorizonWeeks
+		p.horizonSet = true
 	}
 	switch {
 	case f.Budget != nil && f.BudgetChange != nil:
@@ -264,8 +289,12 @@ func ParsePlan(data []byte, source string) (*Plan, error) {
 		if math.IsNaN(*v.v) || math.IsInf(*v.v, 0) || *v.v <= 0 {
 			return nil, bad(v.key, "%s %v must be a positive number", v.key, *v.v)
 		}
+		if v.key == "margin" && *v.v > 1 {
+			return nil, bad(v.key, "margin %v must be in (0, 1]: it is the share of the KPI's value that is profit", *v.v)
+		}
 		*v.dst = *v.v
 	}
+	p.valueSet, p.marginSet = f.ValuePerKPI != nil, f.Margin != nil
 	return p, nil
 }
 

@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"strings"
 
+	"sluice/internal/boundedio"
 	"sluice/internal/strictyaml"
 	"sluice/validation"
 )
@@ -193,7 +194,7 @@ func (p *Policy) KeyPEM(role string) ([][]byte, error) {
 			out = append(out, []byte(k))
 			continue
 		}
-		b, err := os.ReadFile(p.keyPath(k))
+		b, err := boundedio.ReadFile(p.keyPath(k), boundedio.MaxInput)
 		if err != nil {
 			return nil, fmt.Errorf("policies: %s: roles.%s.keys: %w", p.Source, role, err)
 		}
@@ -263,7 +264,7 @@ var Families = []validation.Family{
 // Load reads, decodes and checks the policy file at path. Key file paths in
 // it are taken relative to the file and must exist.
 func Load(path string) (*Policy, error) {
-	data, err := os.ReadFile(path)
+	data, err := boundedio.ReadFile(path, boundedio.MaxInput)
 	if err != nil {
 		return nil, err
 	}

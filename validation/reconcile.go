@@ -7,12 +7,12 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"slices"
 	"sort"
 	"time"
 
+	"sluice/internal/boundedio"
 	"sluice/model"
 )
 
@@ -85,7 +85,7 @@ func LoadForecasts(dir string) ([]*Forecast, error) {
 	sort.Strings(names)
 	var out []*Forecast
 	for _, n := range names {
-		b, err := os.ReadFile(n)
+		b, err := boundedio.ReadFile(n, boundedio.MaxInput)
 		if err != nil {
 			return nil, err
 		}

@@ -39,6 +39,9 @@ func allocateCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
+			if err := reconcilePlan(in, plan); err != nil {
+				return err
+			}
 			var draws []model.Params
 			var point model.Params
 			source := "the point fit only (no --draws given)"

@@ -4,12 +4,12 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"os"
 	"path/filepath"
 	"time"
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/internal/boundedio"
 	"sluice/policies"
 	"sluice/record"
 	"sluice/report"
@@ -82,7 +82,7 @@ func reportCommand() *cli.Command {
 			if path == "" {
 				return withHint(errors.New("report needs --record"), "sluice report --record DIR/decision.json")
 			}
-			body, err := os.ReadFile(path)
+			body, err := boundedio.ReadFile(path, boundedio.MaxInput)
 			if err != nil {
 				return err
 			}
@@ -91,7 +91,7 @@ func reportCommand() *cli.Command {
 				return err
 			}
 			dir := filepath.Dir(path)
-			raw, err := os.ReadFile(filepath.Join(dir, "brief.json"))
+			raw, err := boundedio.ReadFile(filepath.Join(dir, "brief.json"), boundedio.MaxInput)
 			if err != nil {
 				return withHint(err, "brief.json is written by sluice propose beside decision.json")
 			}

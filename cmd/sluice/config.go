@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"fmt"
 	"os"
 	"slices"
@@ -9,6 +10,8 @@ import (
 
 	"github.com/spf13/viper"
 	"github.com/urfave/cli/v2"
+
+	"sluice/internal/boundedio"
 )
 
 // configFile is the optional defaults file in the working directory.
@@ -27,9 +30,12 @@ func newOpts(c *cli.Context) (*opts, error) {
 	v.SetEnvKeyReplacer(strings.NewReplacer("-", "_"))
 	v.AutomaticEnv()
 	if _, err := os.Stat(configFile); err == nil {
-		v.SetConfigFile(configFile)
+		b, err := boundedio.ReadFile(configFile, boundedio.MaxInput)
+		if err != nil {
+			return nil, err
+		}
 		v.SetConfigType("yaml")
-		if err := v.ReadInConfig(); err != nil {
+		if err := v.ReadConfig(bytes.NewReader(b)); err != nil {
 			return nil, fmt.Errorf("%s: %v", configFile, err)
 		}
 		if err := checkConfigKeys(v, c); err != nil {

@@ -5,10 +5,10 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"os"
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/internal/boundedio"
 	"sluice/model"
 )
 
@@ -43,6 +43,9 @@ type modelInput struct {
 	DataSHA256  string
 	SpecPath    string
 	SpecSHA256  string // "" without a spec file
+	// Sources says where the value per KPI unit and the horizon came from
+	// (consistency.go), so a plan that contradicts them names both places.
+	Sources map[string]string
 }
 
 func loadModelInput(o *opts) (*modelInput, error) {
@@ -105,6 +108,7 @@ func loadModelInput(o *opts) (*modelInput, error) {
 		return nil, err
 	}
 	in.Spec = spec
+	in.Sources = settingSources(o, in)
 	if in.Design, err = model.NewDesign(p, spec); err != nil {
 		return nil, err
 	}
@@ -115,7 +119,7 @@ func loadModelInput(o *opts) (*modelInput, error) {
 }
 
 func sha256File(path string) (string, error) {
-	b, err := os.ReadFile(path)
+	b, err := boundedio.ReadFile(path, boundedio.MaxInput)
 	if err != nil {
 		return "", err
 	}

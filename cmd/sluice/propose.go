@@ -16,6 +16,7 @@ import (
 
 	"sluice/gate"
 	"sluice/internal/atomicfile"
+	"sluice/internal/boundedio"
 	"sluice/internal/sample"
 	"sluice/internal/strictyaml"
 	"sluice/model"
@@ -111,7 +112,7 @@ func guardSigned(dir string, replace bool) error {
 		return withHint(fmt.Errorf("refusing to overwrite %s: it has sign-offs in %s", rec, sigs),
 			"write the new decision to another --out, or pass --replace-signed to move the signed record aside")
 	}
-	b, err := os.ReadFile(rec)
+	b, err := boundedio.ReadFile(rec, boundedio.MaxInput)
 	if err != nil {
 		return err
 	}
@@ -163,6 +164,9 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	}
 	plan, err := optimize.LoadPlan(planPath)
 	if err != nil {
+		return nil, err
+	}
+	if err := reconcilePlan(in, plan); err != nil {
 		return nil, err
 	}
 	pol, err := policies.Resolve(a.Policy)
@@ -351,7 +355,7 @@ func signedWaivers(path string, pol *policies.Policy) ([]gate.Waiver, error) {
 		return nil, err
 	}
 	recPath := strings.TrimSuffix(path, ".signatures.json") + ".json"
-	body, err := os.ReadFile(recPath)
+	body, err := boundedio.ReadFile(recPath, boundedio.MaxInput)
 	if err != nil {
 		return nil, fmt.Errorf("%s: the signed record beside it: %w", path, err)
 	}

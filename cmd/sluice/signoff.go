@@ -9,6 +9,7 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/internal/boundedio"
 	"sluice/record"
 )
 
@@ -67,7 +68,7 @@ func signCommand() *cli.Command {
 				}
 				waivers = append(waivers, record.Waiver{Check: w, Reason: c.String("reason")})
 			}
-			body, err := os.ReadFile(path)
+			body, err := boundedio.ReadFile(path, boundedio.MaxInput)
 			if err != nil {
 				return err
 			}

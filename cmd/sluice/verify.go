@@ -7,6 +7,7 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/internal/boundedio"
 	"sluice/policies"
 	"sluice/record"
 )
@@ -28,7 +29,7 @@ func verifyCommand() *cli.Command {
 			if path == "" || polArg == "" {
 				return withHint(errors.New("verify needs --record and --policy"), "sluice verify --record DIR/decision.json --policy policy.yaml")
 			}
-			body, err := os.ReadFile(path)
+			body, err := boundedio.ReadFile(path, boundedio.MaxInput)
 			if err != nil {
 				return err
 			}
