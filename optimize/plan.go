@@ -65,6 +65,14 @@ func (p *Plan) Locate(key string) string {
 	return p.source
 }
 
+// BreakEvenMROI is the marginal ROI at which a channel pays for itself
+// under the plan's economics, in KPI value per currency (the unit of the
+// fit's and validation's marginal ROI, which already multiply by the value
+// per KPI unit): 1/margin. In KPI units per currency it is
+// 1/(margin · value_per_kpi); in profit per currency (the allocator's
+// table) it is 1.
+func (p *Plan) BreakEvenMROI() float64 { return 1 / p.Margin }
+
 // Source is the plan's file name, for messages.
 func (p *Plan) Source() string { return p.source }
 

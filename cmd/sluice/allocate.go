@@ -133,7 +133,7 @@ func newAllocateOutput(in *modelInput, r *optimize.Result, source string, horizo
 }
 
 func printAllocation(w io.Writer, a allocateOutput) {
-	fmt.Fprintf(w, "proposal over %s; objective %s; weekly spend and marginal ROI (profit per currency at the margin)\n\n", a.Source, a.Objective)
+	fmt.Fprintf(w, "proposal over %s; objective %s; weekly spend and marginal ROI (profit per currency at the margin; break-even 1)\n\n", a.Source, a.Objective)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintln(tw, "channel\tcurrent\tproposed\tchange\tmROI now\tmROI proposed\t")
 	for _, c := range a.Channels {

@@ -224,7 +224,9 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 			return nil, err
 		}
 	}
-	val, err := validation.Run(prob, validation.DefaultThresholds(),
+	th := validation.DefaultThresholds()
+	th.BreakEven = plan.BreakEvenMROI() // the plan's economics break even here (KPI value per currency)
+	val, err := validation.Run(prob, th,
 		validation.Settings{Seed: in.Seed, Workers: in.Workers, ValuePerKPI: plan.ValuePerKPI})
 	if err != nil {
 		return nil, err
