@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"strings"
 	"text/tabwriter"
 
 	"github.com/urfave/cli/v2"
@@ -11,6 +12,7 @@ import (
 	"sluice/internal/words"
 	"sluice/model"
 	"sluice/optimize"
+	"sluice/policies"
 )
 
 func allocateCommand() *cli.Command {
@@ -65,6 +67,9 @@ func allocateCommand() *cli.Command {
 				return err
 			}
 			out := newAllocateOutput(in, res, source, plan.HorizonWeeks)
+			if out.Warnings, err = supportWarnings(in, out.Channels); err != nil {
+				return err
+			}
 			if o.Bool("json") {
 				return printJSON(c.App.Writer, out)
 			}
@@ -102,6 +107,36 @@ type allocateOutput struct {
 	Starts       int                `json:"starts"`
 	Agreed       int                `json:"starts_agreed"`
 	Status       string             `json:"status"`
+	// Warnings name each channel the proposal takes outside the spend the
+	// data has seen, as propose's support guard would hold it.
+	Warnings []string `json:"warnings,omitempty"`
+}
+
+// supportWarnings says, per channel, when the proposal leaves the support
+// guard's range of the default policy (the one propose uses without
+// --policy): from low_multiple × the lowest to high_multiple × the highest
+// 4-week average spend in the data (model.Design.Support). A move towards
+// current spend is never warned about: the guard allows current spend.
+func supportWarnings(in *modelInput, chans []allocatedChannel) ([]string, error) {
+	pol, err := policies.Resolve("standard")
+	if err != nil {
+		return nil, err
+	}
+	low, high := in.Design.Support()
+	var out []string
+	for k, c := range chans {
+		lo := min(pol.Support.LowMultiple*low[k], c.Current)
+		hi := max(pol.Support.HighMultiple*high[k], c.Current)
+		switch {
+		case c.Proposed > hi:
+			out = append(out, fmt.Sprintf("%s: proposed %s/week is above the %s/week the data supports (%g × its highest 4-week average %s); propose under the standard policy would hold it there; hint: widen max in the plan only with an experiment to learn from",
+				c.Name, money(c.Proposed), money(hi), pol.Support.HighMultiple, money(high[k])))
+		case c.Proposed < lo:
+			out = append(out, fmt.Sprintf("%s: proposed %s/week is below the %s/week the data supports (%g × its lowest 4-week average %s); propose under the standard policy would hold it there; hint: set min in the plan to keep the channel within what was seen",
+				c.Name, money(c.Proposed), money(lo), pol.Support.LowMultiple, money(low[k])))
+		}
+	}
+	return out, nil
 }
 
 type allocatedChannel struct {
@@ -146,6 +181,13 @@ func printAllocation(w io.Writer, a allocateOutput) {
 		ok = "FAILS"
 	}
 	fmt.Fprintf(w, "optimality check %s (largest violation %.2g): %s; %d of %d starts agreed; %s\n", ok, a.KKT.MaxViolation, a.KKT.Detail, a.Agreed, a.Starts, a.Status)
+	for _, wn := range a.Warnings {
+		text, hint, _ := strings.Cut(wn, "; hint: ")
+		fmt.Fprintf(w, "warning: %s\n", text)
+		if hint != "" {
+			fmt.Fprintf(w, "hint: %s\n", hint)
+		}
+	}
 	fmt.Fprintln(w, "this is a proposal: `sluice propose` sizes each move to what the evidence supports")
 }
 
