@@ -285,21 +285,5 @@ func shapeOf(c TrueChannel) float64 {
 	return 0
 }
 
-// ar1 returns a stationary AR(1) series with unit variance.
-func ar1(rng *rand.Rand, n int, phi float64) []float64 {
-	z := make([]float64, n)
-	s := math.Sqrt(1 - phi*phi)
-	z[0] = rng.NormFloat64()
-	for i := 1; i < n; i++ {
-		z[i] = phi*z[i-1] + s*rng.NormFloat64()
-	}
-	return z
-}
-
-func meanOf(x []float64) float64 {
-	var s float64
-	for _, v := range x {
-		s += v
-	}
-	return s / float64(len(x))
-}
+// ar1 is AR1 (noise.go), the project's one AR(1) generator.
+func ar1(rng *rand.Rand, n int, phi float64) []float64 { return AR1(rng, n, phi) }

@@ -190,13 +190,5 @@ func meanSD(x []float64) (mean, sd float64) {
 	return mean, math.Sqrt(sd / float64(max(len(x)-1, 1)))
 }
 
-// ar1 returns a stationary AR(1) series with unit variance.
-func ar1(rng *rand.Rand, n int, phi float64) []float64 {
-	z := make([]float64, n)
-	s := math.Sqrt(1 - phi*phi)
-	z[0] = rng.NormFloat64()
-	for i := 1; i < n; i++ {
-		z[i] = phi*z[i-1] + s*rng.NormFloat64()
-	}
-	return z
-}
+// ar1 is model.AR1, the project's one AR(1) generator.
+func ar1(rng *rand.Rand, n int, phi float64) []float64 { return model.AR1(rng, n, phi) }

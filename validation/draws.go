@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 
+	"gonum.org/v1/gonum/stat"
+
 	"sluice/model"
 )
 
@@ -100,10 +102,5 @@ func (r *DrawsResult) Checks(th Thresholds) []Check {
 	return out
 }
 
-func meanOf(x []float64) float64 {
-	var s float64
-	for _, v := range x {
-		s += v
-	}
-	return s / float64(len(x))
-}
+// meanOf is the arithmetic mean (gonum/stat).
+func meanOf(x []float64) float64 { return stat.Mean(x, nil) }
