@@ -12,6 +12,7 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"sluice/internal/boundedio"
+	"sluice/internal/strictyaml"
 )
 
 // configFile is the optional defaults file in the working directory.
@@ -33,6 +34,14 @@ func newOpts(c *cli.Context) (*opts, error) {
 		b, err := boundedio.ReadFile(configFile, boundedio.MaxInput)
 		if err != nil {
 			return nil, err
+		}
+		// Parsed once more here for the errors' sake: strictyaml names
+		// sluice.yaml:line for any YAML error, viper does not.
+		var probe map[string]any
+		if len(bytes.TrimSpace(b)) > 0 {
+			if err := strictyaml.Decode(b, configFile, &probe); err != nil {
+				return nil, err
+			}
 		}
 		v.SetConfigType("yaml")
 		if err := v.ReadConfig(bytes.NewReader(b)); err != nil {
