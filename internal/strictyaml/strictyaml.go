@@ -106,7 +106,21 @@ var anchorRE = regexp.MustCompile(`unknown anchor '([^']*)' referenced`)
 // anchors it cannot resolve; those two are found here in the text.
 func locate(err error, data []byte) error {
 	var e *Error
-	if !errors.As(err, &e) || e.Line > 0 {
+	if !errors.As(err, &e) {
+		return err
+	}
+	if strings.Contains(e.Msg, "tab character") {
+		// yaml.v3 names the line where the enclosing block started; the
+		// tab itself is the first one in a line's indentation.
+		for i, ln := range strings.SplitAfter(string(data), "\n") {
+			indent := ln[:len(ln)-len(strings.TrimLeft(ln, " \t"))]
+			if j := strings.IndexByte(indent, '\t'); j >= 0 {
+				e.Line, e.Column = i+1, j+1
+				return e
+			}
+		}
+	}
+	if e.Line > 0 {
 		return err
 	}
 	at := -1

@@ -37,6 +37,8 @@ func TestDecode(t *testing.T) {
 		{"quoted nan is a string", "period_weeks: '.nan'\n", "plan.yaml:1: cannot unmarshal"},
 		// Errors yaml.v3 reports without a line get one.
 		{"first-line syntax", "a: b: c\n", "plan.yaml:1: mapping values"},
+		// yaml.v3 names line 2 here (where the block began); the tab is on line 3.
+		{"tab in indentation", "horizon_weeks: 1\nperiod_weeks: 2\n\tchannels: {}\n", "plan.yaml:3:1: found a tab character"},
 		{"control character", "horizon_weeks: 1\nperiod_weeks: \x01\n", "plan.yaml:2:15: control characters"},
 		{"unknown anchor", "horizon_weeks: 1\nperiod_weeks: *p\n", "plan.yaml:2:15: unknown anchor"},
 	}
