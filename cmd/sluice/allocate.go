@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"strings"
 	"text/tabwriter"
 
@@ -70,6 +71,7 @@ func allocateCommand() *cli.Command {
 			if out.Warnings, err = supportWarnings(in, out.Channels); err != nil {
 				return err
 			}
+			out.Warnings = append(out.Warnings, darkWarnings(plan, out.Channels)...)
 			if o.Bool("json") {
 				return printJSON(c.App.Writer, out)
 			}
@@ -110,6 +112,22 @@ type allocateOutput struct {
 	// Warnings name each channel the proposal takes outside the spend the
 	// data has seen, as propose's support guard would hold it.
 	Warnings []string `json:"warnings,omitempty"`
+}
+
+// darkWarnings names each channel whose current spend is 0 (a flighted
+// channel dark through the last weeks, or one not yet launched) while the
+// plan bounds it by max_change: a change relative to 0 keeps it at 0, so
+// the allocator cannot move it whatever its marginal ROI.
+func darkWarnings(plan *optimize.Plan, chans []allocatedChannel) []string {
+	var out []string
+	for _, c := range chans {
+		cp, ok := plan.Channels[c.Name]
+		if ok && c.Current == 0 && !math.IsInf(cp.MaxChange, 1) && !cp.Locked {
+			out = append(out, fmt.Sprintf("%s: current spend is 0 (no spend in the last %d weeks), so max_change %g keeps it at 0 whatever it returns; hint: bound it with min and max in %s instead, or give its current spend",
+				c.Name, model.CurrentWeeks, cp.MaxChange, plan.Locate("channels."+c.Name)))
+		}
+	}
+	return out
 }
 
 // supportWarnings says, per channel, when the proposal leaves the support
