@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"gonum.org/v1/gonum/stat"
+
 	"sluice/model"
 	"sluice/uncertainty"
 )
@@ -179,15 +181,13 @@ func withBeta(p model.Params, k int, beta float64) model.Params {
 	return q
 }
 
+// meanSD is the mean and the sample standard deviation (n − 1, gonum/stat;
+// 0 for a single value).
 func meanSD(x []float64) (mean, sd float64) {
-	for _, v := range x {
-		mean += v
+	if len(x) < 2 {
+		return stat.Mean(x, nil), 0
 	}
-	mean /= float64(len(x))
-	for _, v := range x {
-		sd += (v - mean) * (v - mean)
-	}
-	return mean, math.Sqrt(sd / float64(max(len(x)-1, 1)))
+	return stat.MeanStdDev(x, nil)
 }
 
 // ar1 is model.AR1, the project's one AR(1) generator.
