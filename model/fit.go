@@ -83,7 +83,7 @@ func NewDesign(p *Panel, spec Spec) (*Design, error) {
 
 // ErrBaseDependent reports base columns (intercept, trend, season, controls)
 // that are linearly dependent, such as a control that never changes.
-var ErrBaseDependent = errors.New("model: base columns are linearly dependent")
+var ErrBaseDependent = errors.New("base columns are linearly dependent")
 
 // CheckBase returns an error naming the first base column that is constant
 // or a combination of the ones before it over the design's weeks; the fit
