@@ -105,6 +105,7 @@ type allocateOutput struct {
 	Horizon      int                `json:"horizon_weeks"`
 	ExpectedGain float64            `json:"expected_gain"`
 	Channels     []allocatedChannel `json:"channels"`
+	MROIUnit     string             `json:"mroi_unit"` // what mroi_current and mroi_proposed count
 	KKT          kktOutput          `json:"kkt"`
 	Starts       int                `json:"starts"`
 	Agreed       int                `json:"starts_agreed"`
@@ -177,7 +178,8 @@ func newAllocateOutput(in *modelInput, r *optimize.Result, source string, horizo
 	out := allocateOutput{Tool: "sluice", Version: version, Seed: in.Seed, Source: source, Horizon: horizon,
 		Objective: r.Objective.String(), Budget: r.Spend, ExpectedGain: r.ExpectedGain,
 		KKT:    kktOutput{OK: r.KKT.OK, MaxViolation: r.KKT.MaxViolation, Multiplier: r.KKT.Multiplier, Detail: r.KKT.Detail},
-		Starts: len(r.Starts), Agreed: r.Agreed, Status: r.Status.String()}
+		Starts: len(r.Starts), Agreed: r.Agreed, Status: r.Status.String(),
+		MROIUnit: "profit per currency at the margin (break-even 1)"}
 	for _, c := range r.Channels {
 		out.Channels = append(out.Channels, allocatedChannel{Name: c.Name, Current: c.Current, Proposed: c.Proposed,
 			Change: c.Change, MROICurrent: c.MROICurrent, MROIProposed: c.MROIProposed})

@@ -61,9 +61,11 @@ type fitSummary struct {
 	Weeks    int                    `json:"weeks"`
 	Horizon  int                    `json:"horizon_weeks"`
 	Channels []model.ChannelSummary `json:"channels"`
-	Fit      fitInfo                `json:"fit"`
-	Params   model.Params           `json:"params"`
-	Fixed    []string               `json:"fixed_columns"`
+	// ROIUnit says what ROI and mroi count: KPI value per currency.
+	ROIUnit string       `json:"roi_unit"`
+	Fit     fitInfo      `json:"fit"`
+	Params  model.Params `json:"params"`
+	Fixed   []string     `json:"fixed_columns"`
 	// Identification names, per channel, the parameters left on a bound
 	// of their box and an effect fitted to zero (model.Identify).
 	Identification []model.Identification `json:"identification"`
@@ -99,6 +101,7 @@ func newFitSummary(in *modelInput, fr *model.FitResult) fitSummary {
 		Fit: fitInfo{Stats: model.FitStats(in.Panel.KPI, fr.Residuals, in.Spec.NumParams()),
 			SSE: fr.SSE, Status: fr.Status.String(), Starts: fr.StartsTried, Converged: fr.Converged,
 			Evaluations: fr.Evaluations, Parameters: in.Spec.NumParams()},
+		ROIUnit:        "KPI value per currency (value per KPI unit applied; not profit: break-even is 1/margin)",
 		Params:         fr.Params,
 		Fixed:          in.Spec.FixedNames(),
 		Identification: in.Design.Identify(fr.Params),
