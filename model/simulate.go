@@ -16,12 +16,10 @@ import (
 // draws a panel from it, so a fit can be checked against a known answer.
 type Truth struct {
 	Seed    uint64 `yaml:"seed" json:"seed"`
-	Weeks   int    `yaml:"weeks" json:"weeks"` // default 156
-	Start   string `yaml:"start" json:"start"` // first week, YYYY-MM-DD; default 2023-01-02
-	KPIName string `yaml:"kpi" json:"kpi"`     // default "revenue"
-	// DateName names the panel's date column; default "week".
-	DateName string `yaml:"date_column" json:"date_column,omitempty"`
-	Horizon  int    `yaml:"horizon_weeks" json:"horizon_weeks"` // default 13
+	Weeks   int    `yaml:"weeks" json:"weeks"`                 // default 156
+	Start   string `yaml:"start" json:"start"`                 // first week, YYYY-MM-DD; default 2023-01-02
+	KPIName string `yaml:"kpi" json:"kpi"`                     // default "revenue"
+	Horizon int    `yaml:"horizon_weeks" json:"horizon_weeks"` // default 13
 
 	Intercept float64 `yaml:"intercept" json:"intercept"` // baseline KPI per week
 	Trend     float64 `yaml:"trend" json:"trend"`         // baseline change from first to last week
@@ -32,6 +30,9 @@ type Truth struct {
 
 	Channels []TrueChannel `yaml:"channels" json:"channels"`
 	Controls []TrueControl `yaml:"controls" json:"controls"`
+
+	// DateName names the panel's date column; default "week".
+	DateName string `yaml:"date_column" json:"date_column,omitempty"`
 }
 
 // TrueChannel is one channel of a synthetic world.
