@@ -2,6 +2,7 @@ package boundedio
 
 import (
 	"errors"
+	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -36,5 +37,26 @@ func TestReadFile(t *testing.T) {
 	}
 	if _, err := ReadFile(filepath.Join(dir, "missing"), MaxInput); !errors.Is(err, os.ErrNotExist) {
 		t.Errorf("missing file: %v", err)
+	}
+}
+
+// A file that grows past the limit after it was opened (a log still being
+// written) fails while it is read, not after reading all of it.
+func TestGrowsPastLimit(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "growing.csv")
+	if err := os.WriteFile(path, []byte("0123456789"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	f, err := Open(path, 16)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	if err := os.WriteFile(path, []byte("0123456789abcdefXYZ"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	b, err := io.ReadAll(f)
+	if !errors.Is(err, ErrTooLarge) || len(b) != 16 {
+		t.Fatalf("read %d bytes, error %v; want 16 bytes and ErrTooLarge", len(b), err)
 	}
 }
