@@ -27,18 +27,29 @@ func settingSource(o *opts, name string) string {
 }
 
 // settingSources records where the value per KPI unit and the horizon came
-// from, and whether the spec file set a horizon.
-func settingSources(o *opts, in *modelInput) map[string]string {
+// from, and refuses a --horizon (or its config) that contradicts the spec
+// file's horizon_weeks, naming both.
+func settingSources(o *opts, in *modelInput) (map[string]string, error) {
 	src := map[string]string{
 		"value-per-kpi": settingSource(o, "value-per-kpi"),
 		"horizon":       settingSource(o, "horizon"),
 	}
-	if src["horizon"] == "" && in.SpecPath != "" {
-		if f, err := model.LoadSpecFile(in.SpecPath); err == nil && f.Horizon != 0 {
-			src["horizon"] = in.SpecPath + " (horizon_weeks)"
-		}
+	if in.SpecPath == "" {
+		return src, nil
 	}
-	return src
+	f, err := model.LoadSpecFile(in.SpecPath)
+	if err != nil || f.Horizon == 0 {
+		return src, err
+	}
+	spec := in.SpecPath + " (horizon_weeks)"
+	if flag := src["horizon"]; flag != "" && o.Int("horizon") != f.Horizon {
+		return nil, withHint(fmt.Errorf("%s %d contradicts %s %d", flag, o.Int("horizon"), spec, f.Horizon),
+			"give the planning horizon in one place only, or make both the same")
+	}
+	if src["horizon"] == "" {
+		src["horizon"] = spec
+	}
+	return src, nil
 }
 
 // reconcilePlan makes the plan and the model inputs mean one thing by each

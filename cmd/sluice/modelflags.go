@@ -108,7 +108,9 @@ func loadModelInput(o *opts) (*modelInput, error) {
 		return nil, err
 	}
 	in.Spec = spec
-	in.Sources = settingSources(o, in)
+	if in.Sources, err = settingSources(o, in); err != nil {
+		return nil, err
+	}
 	if in.Design, err = model.NewDesign(p, spec); err != nil {
 		return nil, err
 	}
