@@ -2,6 +2,8 @@ package model
 
 import (
 	"math"
+	"math/big"
+	"math/rand/v2"
 	"testing"
 )
 
@@ -109,3 +111,53 @@ func TestSupportFlighted(t *testing.T) {
 		t.Fatalf("high support %v, want %v", hi[0], want)
 	}
 }
+
+// Support against exact arithmetic: on seeded random flighted series
+// (cents, runs of zeros), every window sum is computed exactly with
+// math/big (rationals) and the lowest and highest rounded to float64 once;
+// Support's float sums of at most four non-negative terms must lie within
+// 4 ulps of them, and the low support must be >= 0 (exactly 0 when a window
+// is all zeros).
+func TestSupportExact(t *testing.T) {
+	rng := rand.New(rand.NewPCG(17, 3))
+	for trial := range 200 {
+		n := 5 + rng.IntN(60)
+		x := make([]float64, n)
+		zeroRun := false
+		for i := range x {
+			if rng.Float64() < 0.2 {
+				zeroRun = !zeroRun
+			}
+			if !zeroRun {
+				x[i] = float64(rng.IntN(10_000_000)) / 100
+			}
+		}
+		lo, hi := (&Design{Spend: [][]float64{x}}).Support()
+		var minR, maxR *big.Rat
+		for t0 := 0; t0+SupportWeeks <= n; t0++ {
+			s := new(big.Rat)
+			for _, v := range x[t0 : t0+SupportWeeks] {
+				s.Add(s, new(big.Rat).SetFloat64(v))
+			}
+			s.Quo(s, big.NewRat(SupportWeeks, 1))
+			if minR == nil || s.Cmp(minR) < 0 {
+				minR = s
+			}
+			if maxR == nil || s.Cmp(maxR) > 0 {
+				maxR = s
+			}
+		}
+		wantLo, _ := minR.Float64()
+		wantHi, _ := maxR.Float64()
+		if lo[0] < 0 || (wantLo == 0 && lo[0] != 0) {
+			t.Fatalf("trial %d: low support %v, exact %v", trial, lo[0], wantLo)
+		}
+		for _, c := range [][2]float64{{lo[0], wantLo}, {hi[0], wantHi}} {
+			if math.Abs(c[0]-c[1]) > 4*ulp(c[1]) {
+				t.Fatalf("trial %d: support %v, exact %v", trial, c[0], c[1])
+			}
+		}
+	}
+}
+
+func ulp(x float64) float64 { return math.Nextafter(math.Abs(x), math.Inf(1)) - math.Abs(x) }
