@@ -5,6 +5,7 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
+	"io"
 
 	"github.com/urfave/cli/v2"
 
@@ -120,11 +121,17 @@ func loadModelInput(o *opts) (*modelInput, error) {
 	return in, nil
 }
 
+// sha256File hashes the file at path as it streams (a draws file may be
+// far larger than the other inputs: the larger limit applies).
 func sha256File(path string) (string, error) {
-	b, err := boundedio.ReadFile(path, boundedio.MaxInput)
+	f, err := boundedio.Open(path, boundedio.MaxDraws)
 	if err != nil {
 		return "", err
 	}
-	sum := sha256.Sum256(b)
-	return hex.EncodeToString(sum[:]), nil
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", err
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
 }
