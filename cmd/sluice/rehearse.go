@@ -187,7 +187,7 @@ func rehearseMergeCommand() *cli.Command {
 			var first *rehearseFile
 			var parts [][]rehearsal.Outcome
 			for _, path := range c.Args().Slice() {
-				b, err := boundedio.ReadFile(path, boundedio.MaxInput)
+				b, err := boundedio.ReadFile(path, boundedio.MaxDraws) // about 4.5 KB per world
 				if err != nil {
 					return err
 				}

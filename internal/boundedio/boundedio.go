@@ -17,8 +17,9 @@ const (
 	// specs, plans, policies, proposals, records, signatures, keys and
 	// sluice.yaml. 5 years of 100 channels in CSV is under 1 MiB.
 	MaxInput = 64 << 20
-	// MaxDraws bounds a draws file (bootstrap refits, one JSON line each):
-	// 100,000 draws of a 16-channel model take about 200 MiB.
+	// MaxDraws bounds a draws file (bootstrap refits, one JSON line each:
+	// 100,000 draws of a 16-channel model take about 200 MiB) and a
+	// rehearsal shard's rehearsal.json (about 4.5 KB a world).
 	MaxDraws = 1 << 30
 )
 
