@@ -56,34 +56,3 @@ func TestIdentifyByConstruction(t *testing.T) {
 		t.Errorf("fixed decay reported: %+v", id.OnBound)
 	}
 }
-
-// A channel saturated far below its mean spend (true κ = 0.05, six times
-// below the default box's lower end 0.3) cannot be fitted inside the box:
-// the fit must say so: its half saturation or its Hill shape (which trades
-// off against κ: both bend the curve) ends on its lower bound. The truth of
-// the simulated world is set here, not taken from the estimator.
-func TestIdentifySaturatedChannel(t *testing.T) {
-	sim, err := Simulate(&Truth{Seed: 9, Weeks: 156, Intercept: 2e5, NoiseSD: 0.02, Channels: []TrueChannel{
-		{Name: "search", MeanSpend: 1e4, Variation: 0.4, Decay: 0.1, HalfSat: 0.05, Shape: 1, Beta: 6e4},
-		{Name: "social", MeanSpend: 1e4, Variation: 0.6, Decay: 0.3, HalfSat: 1.2, Shape: 1.3, Beta: 4e4},
-	}})
-	if err != nil {
-		t.Fatal(err)
-	}
-	d, err := NewDesign(sim.Panel, sim.Truth.Spec())
-	if err != nil {
-		t.Fatal(err)
-	}
-	fr, err := d.Fit(sim.Panel.KPI, FitSettings{Seed: 1, Workers: 1})
-	if err != nil {
-		t.Fatal(err)
-	}
-	ids := d.Identify(fr.Params)
-	found := false
-	for _, h := range ids[0].OnBound {
-		found = found || ((h.Param == "half_saturation" || h.Param == "shape") && h.Side == BoundLower)
-	}
-	if !found {
-		t.Errorf("search (true κ 0.05): %+v; fitted %+v; want half_saturation or shape on its lower bound", ids[0], fr.Params.Channels[0])
-	}
-}

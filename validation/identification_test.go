@@ -7,7 +7,7 @@ import (
 )
 
 // The grading rule of IdentificationChecks on parameters set by hand
-// against the default box (decay [0, 0.85], κ [0.3, 10], shape [1, 3]):
+// against the default box (decay [0, 0.85], κ [0.05, 10], shape [1, 3]):
 // none on a bound passes, one warns, two fail, a zero effect fails, a
 // decay at 0 is not graded; the metric counts the graded findings.
 func TestIdentificationGrading(t *testing.T) {
@@ -28,7 +28,7 @@ func TestIdentificationGrading(t *testing.T) {
 	p := model.Params{Channels: []model.ChannelParams{
 		{Decay: 0.3, HalfSat: 1, Shape: 2, Beta: 1e4},    // inside
 		{Decay: 0.3, HalfSat: 1, Shape: 3, Beta: 1e4},    // shape on its upper bound
-		{Decay: 0.85, HalfSat: 0.3, Shape: 2, Beta: 1e4}, // decay and κ on bounds
+		{Decay: 0.85, HalfSat: 0.05, Shape: 2, Beta: 1e4}, // decay and κ on bounds
 		{Decay: 0.3, HalfSat: 1, Shape: 2, Beta: 0},      // zero effect
 		{Decay: 0, HalfSat: 1, Shape: 3, Beta: 1e4},      // decay at 0 (not graded) and shape on a bound
 	}}

@@ -80,7 +80,8 @@ func NewForecast(d *model.Design, origin time.Time, params model.Params, plan ma
 
 // LoadForecasts reads every *.json file of dir, in name order: forecast
 // files and decision records. The companions that `sluice propose --out`
-// and `sluice sign` write beside a record (brief.json, *.signatures.json)
+// and `sluice sign` write beside a record (brief.json, the manifest
+// outputs.json, *.signatures.json)
 // are not forecasts and are passed over, so dir may be a folder propose
 // wrote; any other JSON file must be a forecast or a record.
 func LoadForecasts(dir string) ([]*Forecast, error) {
@@ -98,7 +99,7 @@ func LoadForecasts(dir string) ([]*Forecast, error) {
 	sort.Strings(names)
 	var out []*Forecast
 	for _, n := range names {
-		if base := filepath.Base(n); base == "brief.json" || strings.HasSuffix(base, ".signatures.json") {
+		if base := filepath.Base(n); base == "brief.json" || base == "outputs.json" || strings.HasSuffix(base, ".signatures.json") {
 			continue
 		}
 		b, err := boundedio.ReadFile(n, boundedio.MaxInput)

@@ -186,6 +186,7 @@ func rehearseMergeCommand() *cli.Command {
 			}
 			var first *rehearseFile
 			var parts [][]rehearsal.Outcome
+			shards := 0 // the N of the shards K/N when all share it
 			for _, path := range c.Args().Slice() {
 				b, err := boundedio.ReadFile(path, boundedio.MaxDraws) // about 4.5 KB per world
 				if err != nil {
@@ -201,12 +202,17 @@ func rehearseMergeCommand() *cli.Command {
 					return fmt.Errorf("%s is not a shard of the same rehearsal as %s: %s", path, c.Args().First(), msg)
 				}
 				parts = append(parts, f.Outcomes)
+				if sh, err := uncertainty.ParseShard(f.Shard); err == nil && (len(parts) == 1 || sh.N == shards) {
+					shards = sh.N
+				} else {
+					shards = -1
+				}
 			}
 			names := make([]string, len(first.Policies))
 			for j, p := range first.Policies {
 				names[j] = p.Name
 			}
-			r, err := rehearsal.Merge(first.Seed, first.Sizes, names, first.WorldsTotal, parts)
+			r, err := rehearsal.Merge(first.Seed, first.Sizes, names, first.WorldsTotal, max(shards, 0), parts)
 			if err != nil {
 				return err
 			}
