@@ -26,11 +26,11 @@ func TestIdentificationGrading(t *testing.T) {
 		t.Fatal(err)
 	}
 	p := model.Params{Channels: []model.ChannelParams{
-		{Decay: 0.3, HalfSat: 1, Shape: 2, Beta: 1e4},    // inside
-		{Decay: 0.3, HalfSat: 1, Shape: 3, Beta: 1e4},    // shape on its upper bound
+		{Decay: 0.3, HalfSat: 1, Shape: 2, Beta: 1e4},     // inside
+		{Decay: 0.3, HalfSat: 1, Shape: 3, Beta: 1e4},     // shape on its upper bound
 		{Decay: 0.85, HalfSat: 0.05, Shape: 2, Beta: 1e4}, // decay and κ on bounds
-		{Decay: 0.3, HalfSat: 1, Shape: 2, Beta: 0},      // zero effect
-		{Decay: 0, HalfSat: 1, Shape: 3, Beta: 1e4},      // decay at 0 (not graded) and shape on a bound
+		{Decay: 0.3, HalfSat: 1, Shape: 2, Beta: 0},       // zero effect
+		{Decay: 0, HalfSat: 1, Shape: 3, Beta: 1e4},       // decay at 0 (not graded) and shape on a bound
 	}}
 	want := []struct {
 		st Status
