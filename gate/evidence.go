@@ -79,7 +79,7 @@ func reviewEvidence(r Review) (*evidenceOutcome, error) {
 		case use.Action == policies.Hold && global:
 			use.Effect = "holds every channel at its current spend"
 			for j := range out.holdChan {
-				out.holdChan[j] = append(out.holdChan[j], fmt.Sprintf("%s; the policy moves no channel when a %s check %s",
+				out.holdChan[j] = append(out.holdChan[j], fmt.Sprintf("%s; the policy moves no channel when a check of the %s family %s",
 					what, c.Family, statusWord(c.Status == validation.Fail)))
 			}
 		case use.Action == policies.Hold && k < 0:
@@ -90,7 +90,7 @@ func reviewEvidence(r Review) (*evidenceOutcome, error) {
 				what, c.Family, statusWord(c.Status == validation.Fail)))
 		case use.Action == policies.Refuse:
 			use.Effect = "refuses the decision"
-			out.refusals = append(out.refusals, fmt.Sprintf("%s; the policy refuses any move when a %s check %s", what, c.Family, statusWord(c.Status == validation.Fail)))
+			out.refusals = append(out.refusals, fmt.Sprintf("%s; the policy refuses any move when a check of the %s family %s", what, c.Family, statusWord(c.Status == validation.Fail)))
 		case use.Action == policies.Cap && global:
 			use.Effect = "holds every channel within " + band
 			out.capAll = append(out.capAll, fmt.Sprintf("%s; the policy holds every channel within %s", what, band))

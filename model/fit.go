@@ -9,6 +9,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"sluice/internal/lsq"
 	"sluice/internal/varpro"
 )
 
@@ -117,27 +118,19 @@ func NewDesign(p *Panel, spec Spec) (*Design, error) {
 
 // ErrBaseDependent reports base columns (intercept, trend, season, controls)
 // that are linearly dependent, such as a control that never changes.
-var ErrBaseDependent = errors.New("model: base columns are linearly dependent")
+var ErrBaseDependent = errors.New("base columns are linearly dependent")
 
 // CheckBase returns an error naming the first base column that is constant
 // or a combination of the ones before it over the design's weeks; the fit
 // cannot separate such columns.
 func (d *Design) CheckBase() error {
 	names := d.Spec.FixedNames()
-	_, p := d.Fixed.Dims()
-	var qr mat.QR
-	qr.Factorize(d.Fixed)
-	var r mat.Dense
-	qr.RTo(&r)
-	for j := range p {
-		norm := mat.Norm(d.Fixed.ColView(j), 2)
-		if norm == 0 || math.Abs(r.At(j, j)) <= 1e-9*norm {
-			what := "is a combination of the base columns before it"
-			if j > 0 && isConstant(d.Fixed, j) {
-				what = "is constant, so it cannot be told apart from the intercept"
-			}
-			return fmt.Errorf("%w: %q %s over these %d weeks", ErrBaseDependent, names[j], what, d.N)
+	if j := lsq.DependentColumn(d.Fixed); j >= 0 {
+		what := "is a combination of the base columns before it"
+		if j > 0 && isConstant(d.Fixed, j) {
+			what = "is constant, so it cannot be told apart from the intercept"
 		}
+		return fmt.Errorf("%w: %q %s over these %d weeks", ErrBaseDependent, names[j], what, d.N)
 	}
 	return nil
 }

@@ -8,10 +8,12 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"strconv"
 	"strings"
 	"time"
+	"unicode/utf8"
+
+	"sluice/internal/boundedio"
 )
 
 // Columns says which columns of the file play which role. Columns of the
@@ -53,7 +55,7 @@ func (e *DataError) Error() string {
 // LoadPanel reads the weekly panel in the CSV file at path (see ReadPanel).
 // Messages name the file as path was given.
 func LoadPanel(path string, cols Columns) (*Panel, error) {
-	f, err := os.Open(path)
+	f, err := boundedio.Open(path, boundedio.MaxInput)
 	if err != nil {
 		return nil, err
 	}
@@ -102,6 +104,7 @@ func ReadPanel(r io.Reader, source string, cols Columns) (*Panel, error) {
 		p.Controls = append([]string(nil), cols.Controls...)
 		p.Control = make([][]float64, len(cols.Controls))
 	}
+	p.DateName = l.header[l.date]
 	if err := l.readRows(p); err != nil {
 		return nil, err
 	}
@@ -278,7 +281,7 @@ func (l *loader) readHeader() error {
 		}
 		if j, dup := first[name]; dup {
 			return l.cellErr(i, "give every column a distinct name",
-				"header names column %q twice (fields %d and %d)", name, j+1, i+1)
+				"header names column %s twice (fields %d and %d)", quote(name), j+1, i+1)
 		}
 		first[name] = i
 	}
@@ -341,7 +344,7 @@ func (l *loader) bind(cols Columns) error {
 	find := func(name, r string) int {
 		i := l.index(name)
 		if i < 0 && err == nil {
-			err = l.errAt(l.headerLn, 0, l.missingHint(name), "%s column %q is not in the header", r, name)
+			err = l.errAt(l.headerLn, 0, l.missingHint(name), "%s column %s is not in the header", r, quote(name))
 		}
 		return i
 	}
@@ -399,64 +402,95 @@ func (l *loader) missingHint(name string) string {
 func (l *loader) readRows(p *Panel) error {
 	var prev time.Time
 	prevLine := 0
+	// A jump in the dates is held back until the file is read: when a later
+	// row goes back in time the rows are out of order, and saying "week …
+	// is missing" would send the user looking for a row that is there.
+	var gap error
+	fail := func(err error) error {
+		if gap != nil {
+			return gap
+		}
+		return err
+	}
 	for {
 		rec, err := l.cr.Read()
 		if err == io.EOF {
 			break
 		}
 		if err != nil {
-			return l.readErr(err)
+			return fail(l.readErr(err))
 		}
 		line, _ := l.cr.FieldPos(0)
 		switch {
 		case len(rec) < len(l.header):
-			return l.errAt(line, 0, "every row needs a field for each header column",
-				"row has %d fields, the header has %d", len(rec), len(l.header))
+			// The column is the byte just past the row's last field: where
+			// the missing fields should start.
+			_, col := l.cr.FieldPos(len(rec) - 1)
+			col += len(rec[len(rec)-1])
+			missing := l.header[len(rec)]
+			if missing == "" {
+				missing = "unnamed"
+			}
+			return fail(l.errAt(line, col, "every row needs a field for each header column",
+				"row has %d fields, the header has %d: the row ends before column %s (field %d)",
+				len(rec), len(l.header), quote(missing), len(rec)+1))
 		case len(rec) > len(l.header):
-			return l.cellErr(len(l.header), "quote fields that contain commas; "+hintGrouping,
-				"row has %d fields, the header has %d", len(rec), len(l.header))
+			return fail(l.cellErr(len(l.header), "quote fields that contain commas; "+hintGrouping,
+				"row has %d fields, the header has %d", len(rec), len(l.header)))
 		}
 
-		week, err := l.week(rec, prev, prevLine, len(p.Weeks) > 0)
+		week, jump, err := l.week(rec, prev, prevLine, len(p.Weeks) > 0)
 		if err != nil {
-			return err
+			var ooo *outOfOrder
+			if errors.As(err, &ooo) {
+				return ooo.DataError // after a jump too: the jump was the rows' order
+			}
+			return fail(err)
+		}
+		if jump != nil && gap == nil {
+			gap = jump
 		}
 		y, err := l.number(rec, l.kpi, roleKPI, true)
 		if err != nil {
-			return err
+			return fail(err)
 		}
 		p.Weeks = append(p.Weeks, week)
 		p.KPI = append(p.KPI, y)
 		for k, i := range l.channels {
 			x, err := l.number(rec, i, roleChannel, true)
 			if err != nil {
-				return err
+				return fail(err)
 			}
 			p.Spend[k] = append(p.Spend[k], x)
 		}
 		for j, i := range l.controls {
 			z, err := l.number(rec, i, roleControl, false)
 			if err != nil {
-				return err
+				return fail(err)
 			}
 			p.Control[j] = append(p.Control[j], z)
 		}
 		prev, prevLine = week, line
 	}
+	if gap != nil {
+		return gap
+	}
 	if len(p.Weeks) == 0 {
-		return l.errAt(0, 0, "after the header row, add one row per week", "no data rows after the header")
+		return l.errAt(l.headerLn, 0, "after the header row, add one row per week", "no data rows after the header")
 	}
 	return nil
 }
 
 // week parses the date in rec and checks that it is exactly 7 days after
 // prev (the previous row's week, read at line prevLine) when there is one.
-func (l *loader) week(rec []string, prev time.Time, prevLine int, hasPrev bool) (time.Time, error) {
+// A jump of whole weeks (weeks missing) is not an error yet: it comes back
+// as jump, with the week, for readRows to report if nothing explains it.
+func (l *loader) week(rec []string, prev time.Time, prevLine int, hasPrev bool) (t time.Time, jump, err error) {
 	i := l.date
 	s := strings.TrimSpace(rec[i])
 	t, ok := parseDate(s)
 	if !ok {
-		col := fmt.Sprintf("column %q", l.header[i])
+		col := "column " + quote(l.header[i])
 		if l.header[i] == "" {
 			col = "the unnamed column " + strconv.Itoa(i+1)
 		}
@@ -466,46 +500,51 @@ func (l *loader) week(rec []string, prev time.Time, prevLine int, hasPrev bool) 
 		}
 		switch {
 		case s == "":
-			return time.Time{}, l.cellErr(i, hint, "date in %s is empty", col)
+			return time.Time{}, nil, l.cellErr(i, hint, "date in %s is empty", col)
 		case isDateShape(s):
-			return time.Time{}, l.cellErr(i, "the month must be 01 to 12 and the day must exist in that month",
-				"date %q in %s is not a calendar date", s, col)
+			return time.Time{}, nil, l.cellErr(i, "the month must be 01 to 12 and the day must exist in that month",
+				"date %s in %s is not a calendar date", quote(s), col)
 		default:
-			return time.Time{}, l.cellErr(i, hint, "date %q in %s is not YYYY-MM-DD", s, col)
+			return time.Time{}, nil, l.cellErr(i, hint, "date %s in %s is not YYYY-MM-DD", quote(s), col)
 		}
 	}
 	if !hasPrev {
-		return t, nil
+		return t, nil, nil
 	}
 	const day = 24 * 60 * 60
 	days := (t.Unix() - prev.Unix()) / day // Unix seconds: no overflow, unlike time.Duration over 292 years
 	if days == 7 {
-		return t, nil
+		return t, nil, nil
 	}
 	const iso = "2006-01-02"
 	switch {
 	case days == 0:
-		return time.Time{}, l.cellErr(i, "keep one row per week: combine or drop the duplicate",
+		return time.Time{}, nil, l.cellErr(i, "keep one row per week: combine or drop the duplicate",
 			"week %s appears twice (lines %d and %d)", s, prevLine, l.line(i))
 	case days < 0:
-		return time.Time{}, l.cellErr(i, "sort the rows by date, oldest first",
-			"week %s comes after week %s: rows must be in date order", s, prev.Format(iso))
+		return time.Time{}, nil, &outOfOrder{l.cellErr(i, "sort the rows by date, oldest first",
+			"rows are out of order: week %s (line %d) comes after week %s (line %d)", s, l.line(i), prev.Format(iso), prevLine)}
 	case days%7 == 0:
 		missing := days/7 - 1
 		first := prev.AddDate(0, 0, 7)
 		if missing == 1 {
-			return time.Time{}, l.cellErr(i, "every week needs a row, even one without spend",
-				"week %s is missing: the rows jump from %s to %s", first.Format(iso), prev.Format(iso), s)
+			return t, l.cellErr(i, "every week needs a row, even one without spend",
+				"week %s is missing: the rows jump from %s to %s", first.Format(iso), prev.Format(iso), s), nil
 		}
 		last := t.AddDate(0, 0, -7)
-		return time.Time{}, l.cellErr(i, "every week needs a row, even one without spend",
+		return t, l.cellErr(i, "every week needs a row, even one without spend",
 			"%d weeks are missing, %s to %s: the rows jump from %s to %s",
-			missing, first.Format(iso), last.Format(iso), prev.Format(iso), s)
+			missing, first.Format(iso), last.Format(iso), prev.Format(iso), s), nil
 	default:
-		return time.Time{}, l.cellErr(i, "date every row by the same weekday, e.g. the Monday that starts its week",
+		return time.Time{}, nil, l.cellErr(i, "date every row by the same weekday, e.g. the Monday that starts its week",
 			"week %s is %s after week %s: rows must be exactly 7 days apart", s, plural(int(days), "day"), prev.Format(iso))
 	}
 }
+
+// outOfOrder is a row dated before the row above it.
+type outOfOrder struct{ *DataError }
+
+func (e *outOfOrder) Unwrap() error { return e.DataError }
 
 func (l *loader) line(i int) int {
 	line, _ := l.cr.FieldPos(i)
@@ -521,7 +560,7 @@ func (l *loader) number(rec []string, i int, role string, nonNegative bool) (flo
 		if role == roleChannel {
 			hint = hintZeroSpend
 		}
-		return 0, l.cellErr(i, hint, "%s in column %q is empty", what, name)
+		return 0, l.cellErr(i, hint, "%s in column %s is empty", what, quote(name))
 	}
 	if !isDecimal(s) {
 		if isNonFinite(s) {
@@ -529,20 +568,20 @@ func (l *loader) number(rec []string, i int, role string, nonNegative bool) (flo
 			if strings.Contains(strings.ToLower(s), "nan") {
 				hint = hintMissing
 			}
-			return 0, l.cellErr(i, hint, "%s %q in column %q is not a finite number", what, s, name)
+			return 0, l.cellErr(i, hint, "%s %s in column %s is not a finite number", what, quote(s), quote(name))
 		}
-		return 0, l.cellErr(i, notNumberHint(s), "%s %q in column %q is not a number", what, s, name)
+		return 0, l.cellErr(i, notNumberHint(s), "%s %s in column %s is not a number", what, quote(s), quote(name))
 	}
 	v, err := strconv.ParseFloat(s, 64)
 	if err != nil || math.IsInf(v, 0) { // only a range error can remain: beyond ±1.8e308
-		return 0, l.cellErr(i, "", "%s %q in column %q is not a finite number", what, s, name)
+		return 0, l.cellErr(i, "", "%s %s in column %s is not a finite number", what, quote(s), quote(name))
 	}
 	if nonNegative && v < 0 {
 		hint := "spend is money paid out and cannot be negative; check for refunds or credits netted into the column"
 		if role == roleKPI {
 			hint = "the kpi (revenue or units) cannot be negative"
 		}
-		return 0, l.cellErr(i, hint, "%s %q in column %q is negative", what, s, name)
+		return 0, l.cellErr(i, hint, "%s %s in column %s is negative", what, quote(s), quote(name))
 	}
 	return v + 0, nil // + 0 turns -0 into 0
 }
@@ -562,6 +601,23 @@ func (l *loader) checkColumnsHaveData(p *Panel) error {
 		}
 	}
 	return nil
+}
+
+// maxQuoted is how many bytes of a cell a message repeats; a longer cell
+// (a whole file pasted into one field, a runaway quote) is cut.
+const maxQuoted = 40
+
+// quote quotes s for a message, cutting it after maxQuoted bytes (at a
+// character boundary) and saying how long it was.
+func quote(s string) string {
+	if len(s) <= maxQuoted {
+		return strconv.Quote(s)
+	}
+	cut := maxQuoted
+	for cut > 0 && !utf8.RuneStart(s[cut]) {
+		cut--
+	}
+	return fmt.Sprintf("%s… (%d bytes)", strconv.Quote(s[:cut]), len(s))
 }
 
 func allZero(x []float64) bool {

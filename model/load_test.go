@@ -124,7 +124,17 @@ func TestReadPanelRefuses(t *testing.T) {
 		{name: "missing weeks", csv: head + row1 + "2024-01-29,1100,120,060,9.5,b\n",
 			prefix: "weekly.csv:3:1: ", words: []string{"3 weeks are missing, 2024-01-08 to 2024-01-22"}},
 		{name: "out of order", csv: head + row2 + row1,
-			prefix: "weekly.csv:3:1: ", words: []string{"week 2024-01-01 comes after week 2024-01-08", "date order"}, hint: "sort"},
+			prefix: "weekly.csv:3:1: ", words: []string{"rows are out of order: week 2024-01-01 (line 3) comes after week 2024-01-08 (line 2)"}, hint: "sort"},
+		// Weeks 1, 3, 2: the jump from 1 to 3 looks like a missing week, but
+		// the next row shows the rows are only out of order.
+		{name: "out of order after a jump", csv: head + row1 + "2024-01-15,1100,120,060,9.5,b\n" + row2,
+			prefix: "weekly.csv:4:1: ", words: []string{"rows are out of order: week 2024-01-08 (line 4) comes after week 2024-01-15 (line 3)"}, hint: "sort"},
+		// A real jump is still reported first when a later row has another problem.
+		{name: "missing week before a bad cell", csv: head + row1 + "2024-01-15,1100,120,060,9.5,b\n" + "2024-01-22,x,120,060,9.5,b\n",
+			prefix: "weekly.csv:3:1: ", words: []string{"week 2024-01-08 is missing"}},
+		// A huge cell is quoted only in part (40 bytes) with its length.
+		{name: "huge cell", csv: head + "2024-01-01," + strings.Repeat("9x", 5000) + ",100,050,9.5,a\n",
+			prefix: "weekly.csv:2:12: ", words: []string{`kpi value "9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x"… (10000 bytes) in column "revenue" is not a number`}},
 		{name: "not 7 days apart", csv: head + row1 + "2024-01-09,1100,120,060,9.5,b\n",
 			prefix: "weekly.csv:3:1: ", words: []string{"week 2024-01-09 is 8 days after week 2024-01-01", "exactly 7 days apart"}},
 		{name: "daily rows", csv: head + row1 + "2024-01-02,1100,120,060,9.5,b\n",
@@ -132,7 +142,7 @@ func TestReadPanelRefuses(t *testing.T) {
 
 		// Row shape.
 		{name: "too few fields", csv: head + row1 + "2024-01-08,1100,120,060,9.5\n",
-			prefix: "weekly.csv:3: ", words: []string{"row has 5 fields, the header has 6"}},
+			prefix: "weekly.csv:3:28: ", words: []string{`row has 5 fields, the header has 6: the row ends before column "note" (field 6)`}},
 		// An unquoted 1,100 splits into two fields; the error points at the
 		// first field beyond the header's six ("b", byte 30).
 		{name: "too many fields", csv: head + row1 + "2024-01-08,1,100,120,060,9.5,b\n",
@@ -196,7 +206,7 @@ func TestReadPanelRefuses(t *testing.T) {
 		{name: "all-zero channel", csv: head + "2024-01-01,1000,100,0,9.5,a\n2024-01-08,1100,120,-0,9.5,b\n",
 			prefix: "weekly.csv:1:17: ", words: []string{`channel "social" has zero spend in all 2 weeks`}},
 		{name: "no data rows", csv: head,
-			prefix: "weekly.csv: ", words: []string{"no data rows"}},
+			prefix: "weekly.csv:1: ", words: []string{"no data rows"}},
 		{name: "empty file", csv: "",
 			prefix: "weekly.csv: ", words: []string{"file is empty"}},
 		{name: "BOM only", csv: "\xef\xbb\xbf",
@@ -252,7 +262,8 @@ func TestReadPanel(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := &Panel{
-		Source: "in.csv",
+		Source:   "in.csv",
+		DateName: "week",
 		Weeks: []time.Time{
 			time.Date(2024, 2, 19, 0, 0, 0, 0, time.UTC),
 			time.Date(2024, 2, 26, 0, 0, 0, 0, time.UTC),

@@ -9,6 +9,7 @@ import "time"
 type Panel struct {
 	Source   string      // file name, for messages
 	Weeks    []time.Time // first day of each week, strictly 7 days apart
+	DateName string      // the date column's name in the file; "" means "week"
 	KPIName  string
 	KPI      []float64   // per week
 	Channels []string    // spend column names

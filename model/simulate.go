@@ -31,6 +31,9 @@ type Truth struct {
 
 	Channels []TrueChannel `yaml:"channels" json:"channels"`
 	Controls []TrueControl `yaml:"controls" json:"controls"`
+
+	// DateName names the panel's date column; default "week".
+	DateName string `yaml:"date_column" json:"date_column,omitempty"`
 }
 
 // TrueChannel is one channel of a synthetic world.
@@ -57,6 +60,8 @@ type TrueChannel struct {
 	// coefficient is multiplied by 1 + SeasonEffect·cos(2πt/52.18), also in
 	// the horizon's weeks; 0 (the default) is none; |SeasonEffect| < 1.
 	SeasonEffect float64 `yaml:"season_effect" json:"season_effect,omitempty"`
+	// SpendShape adds flighting, a launch week and holiday spikes.
+	SpendShape `yaml:",inline"`
 }
 
 // TrueControl is a control variable of a synthetic world: an AR(1) series
@@ -146,6 +151,9 @@ func (t *Truth) fill(source string) error {
 		if !(math.Abs(c.SeasonEffect) < 1) {
 			return bad(p+".season_effect", "%g must lie strictly between -1 and 1", c.SeasonEffect)
 		}
+		if err := c.SpendShape.check(p, t.Weeks); err != nil {
+			return fmt.Errorf("%s: %w", source, err)
+		}
 	}
 	for i, c := range t.Channels {
 		if c.Follows != "" && (!names[c.Follows] || c.Follows == c.Name) {
@@ -207,7 +215,7 @@ func Simulate(t *Truth) (*Simulated, error) {
 	rng := rand.New(rand.NewPCG(t.Seed, 0x5eed))
 	n := t.Weeks
 	start, _ := time.Parse(time.DateOnly, t.Start)
-	p := &Panel{Source: "simulated", KPIName: t.KPIName}
+	p := &Panel{Source: "simulated", KPIName: t.KPIName, DateName: t.DateName}
 	for w := range n {
 		p.Weeks = append(p.Weeks, start.AddDate(0, 0, 7*w))
 	}
@@ -232,6 +240,10 @@ func Simulate(t *Truth) (*Simulated, error) {
 					x[i] = 0
 				}
 			}
+		}
+		c.SpendShape.apply(rng, p.Weeks, x)
+		if allZero(x) {
+			return nil, fmt.Errorf("%w: channel %q is dark in every week: its flighting and launch week leave no week with spend", ErrTruth, c.Name)
 		}
 		scale := c.MeanSpend / meanOf(x)
 		for i := range x {
@@ -441,21 +453,5 @@ func shapeOf(c TrueChannel) float64 {
 	return 0
 }
 
-// ar1 returns a stationary AR(1) series with unit variance.
-func ar1(rng *rand.Rand, n int, phi float64) []float64 {
-	z := make([]float64, n)
-	s := math.Sqrt(1 - phi*phi)
-	z[0] = rng.NormFloat64()
-	for i := 1; i < n; i++ {
-		z[i] = phi*z[i-1] + s*rng.NormFloat64()
-	}
-	return z
-}
-
-func meanOf(x []float64) float64 {
-	var s float64
-	for _, v := range x {
-		s += v
-	}
-	return s / float64(len(x))
-}
+// ar1 is AR1 (noise.go), the project's one AR(1) generator.
+func ar1(rng *rand.Rand, n int, phi float64) []float64 { return AR1(rng, n, phi) }

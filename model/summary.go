@@ -158,19 +158,24 @@ func FitStats(y, e []float64, nparams int) Stats {
 const SupportWeeks = 4
 
 // Support returns, per channel, the lowest and the highest average weekly
-// spend over any SupportWeeks consecutive weeks of the data.
+// spend over any SupportWeeks consecutive weeks of the data. Each window is
+// summed afresh (no running sum): a running sum s += x[t] - x[t-w] drifts by
+// round-off and can end below zero after a run of zero weeks, while a sum of
+// non-negative spends is exactly >= 0 and exactly 0 over an all-zero window.
 func (d *Design) Support() (low, high []float64) {
 	low = make([]float64, len(d.Spend))
 	high = make([]float64, len(d.Spend))
 	for k, x := range d.Spend {
 		w := min(SupportWeeks, len(x))
-		var s float64
-		for t := range w {
-			s += x[t]
+		if w == 0 {
+			continue
 		}
-		lo, hi := s, s
-		for t := w; t < len(x); t++ {
-			s += x[t] - x[t-w]
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for t := w; t <= len(x); t++ {
+			var s float64
+			for _, v := range x[t-w : t] {
+				s += v
+			}
 			lo, hi = math.Min(lo, s), math.Max(hi, s)
 		}
 		low[k], high[k] = lo/float64(w), hi/float64(w)

@@ -110,8 +110,11 @@ func ExponentialDerivs(a, k float64) (v, da, dk float64) {
 	if a <= 0 {
 		return 0, 0, 0
 	}
+	// The value as Exponential computes it (not 1 − e): a curve's R(0) is
+	// the difference of the two, and must be exactly 0, never a round-off
+	// negative.
 	e := math.Exp(-a / k)
-	return 1 - e, e / k, -a / (k * k) * e
+	return -math.Expm1(-a / k), e / k, -a / (k * k) * e
 }
 
 // HalfLife returns the number of weeks after which a geometric adstock

@@ -2,6 +2,8 @@ package model
 
 import (
 	"math"
+	"math/big"
+	"math/rand/v2"
 	"testing"
 )
 
@@ -91,3 +93,71 @@ func TestSupport(t *testing.T) {
 		t.Fatalf("support [%v, %v], want [3, 6]", lo[0], hi[0])
 	}
 }
+
+// A flighted channel: bursts of awkward decimal spends separated by long
+// zero runs. Every window inside a zero run must give exactly 0 (a sum of
+// zeros), never a round-off negative; the highest window is the burst's
+// exact 4-week mean, summed by hand below. A running sum (s += x[t] - x[t-w])
+// ends at about -1.8e-13 on this series.
+func TestSupportFlighted(t *testing.T) {
+	x := []float64{0.1, 1234.57, 98765.43, 0.3, 77.7, 0, 0, 0, 0, 0, 0, 0.7, 3333.33, 0.2, 0, 0, 0, 0, 0}
+	d := &Design{Spend: [][]float64{x}}
+	lo, hi := d.Support()
+	if lo[0] != 0 {
+		t.Fatalf("low support %v, want exactly 0 over an all-zero 4-week window", lo[0])
+	}
+	want := (1234.57 + 98765.43 + 0.3 + 77.7) / 4 // the largest window, by inspection
+	if hi[0] != want {
+		t.Fatalf("high support %v, want %v", hi[0], want)
+	}
+}
+
+// Support against exact arithmetic: on seeded random flighted series
+// (cents, runs of zeros), every window sum is computed exactly with
+// math/big (rationals) and the lowest and highest rounded to float64 once;
+// Support's float sums of at most four non-negative terms must lie within
+// 4 ulps of them, and the low support must be >= 0 (exactly 0 when a window
+// is all zeros).
+func TestSupportExact(t *testing.T) {
+	rng := rand.New(rand.NewPCG(17, 3))
+	for trial := range 200 {
+		n := 5 + rng.IntN(60)
+		x := make([]float64, n)
+		zeroRun := false
+		for i := range x {
+			if rng.Float64() < 0.2 {
+				zeroRun = !zeroRun
+			}
+			if !zeroRun {
+				x[i] = float64(rng.IntN(10_000_000)) / 100
+			}
+		}
+		lo, hi := (&Design{Spend: [][]float64{x}}).Support()
+		var minR, maxR *big.Rat
+		for t0 := 0; t0+SupportWeeks <= n; t0++ {
+			s := new(big.Rat)
+			for _, v := range x[t0 : t0+SupportWeeks] {
+				s.Add(s, new(big.Rat).SetFloat64(v))
+			}
+			s.Quo(s, big.NewRat(SupportWeeks, 1))
+			if minR == nil || s.Cmp(minR) < 0 {
+				minR = s
+			}
+			if maxR == nil || s.Cmp(maxR) > 0 {
+				maxR = s
+			}
+		}
+		wantLo, _ := minR.Float64()
+		wantHi, _ := maxR.Float64()
+		if lo[0] < 0 || (wantLo == 0 && lo[0] != 0) {
+			t.Fatalf("trial %d: low support %v, exact %v", trial, lo[0], wantLo)
+		}
+		for _, c := range [][2]float64{{lo[0], wantLo}, {hi[0], wantHi}} {
+			if math.Abs(c[0]-c[1]) > 4*ulp(c[1]) {
+				t.Fatalf("trial %d: support %v, exact %v", trial, c[0], c[1])
+			}
+		}
+	}
+}
+
+func ulp(x float64) float64 { return math.Nextafter(math.Abs(x), math.Inf(1)) - math.Abs(x) }

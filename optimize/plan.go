@@ -3,12 +3,12 @@ package optimize
 import (
 	"fmt"
 	"math"
-	"os"
 	"slices"
 	"strings"
 
 	"go.yaml.in/yaml/v3"
 
+	"sluice/internal/boundedio"
 	"sluice/internal/strictyaml"
 )
 
@@ -41,10 +41,42 @@ type Plan struct {
 	ValuePerKPI  float64
 	Currency     string // e.g. "EUR": a label for people, never converted; "" when not given
 
-	source string
-	order  []string              // channel keys in file order
-	nodes  map[string]*yaml.Node // key path → key node, for positions
+	source                          string
+	valueSet, marginSet, horizonSet bool
+	order                           []string              // channel keys in file order
+	nodes                           map[string]*yaml.Node // key path → key node, for positions
 }
+
+// MaxHorizonWeeks bounds a plan's horizon as the model spec bounds its own.
+const MaxHorizonWeeks = 104
+
+// ValueSet and MarginSet report whether the file gave value_per_kpi and
+// margin (rather than leaving the defaults of 1).
+func (p *Plan) ValueSet() bool  { return p.valueSet }
+func (p *Plan) MarginSet() bool { return p.marginSet }
+
+// HorizonSet reports whether the file gave horizon_weeks.
+func (p *Plan) HorizonSet() bool { return p.horizonSet }
+
+// Locate returns "file:line:column" of key (a dotted path such as
+// "value_per_kpi") in the plan, or the file name when the key is absent.
+func (p *Plan) Locate(key string) string {
+	if n := p.nodes[key]; n != nil {
+		return fmt.Sprintf("%s:%d:%d", p.source, n.Line, n.Column)
+	}
+	return p.source
+}
+
+// BreakEvenMROI is the marginal ROI at which a channel pays for itself
+// under the plan's economics, in KPI value per currency (the unit of the
+// fit's and validation's marginal ROI, which already multiply by the value
+// per KPI unit): 1/margin. In KPI units per currency it is
+// 1/(margin · value_per_kpi); in profit per currency (the allocator's
+// table) it is 1.
+func (p *Plan) BreakEvenMROI() float64 { return 1 / p.Margin }
+
+// Source is the plan's file name, for messages.
+func (p *Plan) Source() string { return p.source }
 
 // BudgetRule says how the total budget is set.
 type BudgetRule struct {
@@ -111,7 +143,7 @@ type groupFile struct {
 
 // LoadPlan reads and checks the plan file at path.
 func LoadPlan(path string) (*Plan, error) {
-	data, err := os.ReadFile(path)
+	data, err := boundedio.ReadFile(path, boundedio.MaxInput)
 	if err != nil {
 		return nil, err
 	}
@@ -156,10 +188,11 @@ func ParsePlan(data []byte, source string) (*Plan, error) {
 		return nil
 	}
 	if f.HorizonWeeks != nil {
-		if *f.HorizonWeeks < 1 {
-			return nil, bad("horizon_weeks", "horizon %d weeks must be at least 1", *f.HorizonWeeks)
+		if *f.HorizonWeeks < 1 || *f.HorizonWeeks > MaxHorizonWeeks {
+			return nil, bad("horizon_weeks", "horizon %d weeks must be between 1 and %d (two years), as in the model spec", *f.HorizonWeeks, MaxHorizonWeeks)
 		}
 		p.HorizonWeeks = *f.HorizonWeeks
+		p.horizonSet = true
 	}
 	switch {
 	case f.Budget != nil && f.BudgetChange != nil:
@@ -267,6 +300,9 @@ func ParsePlan(data []byte, source string) (*Plan, error) {
 		if math.IsNaN(*v.v) || math.IsInf(*v.v, 0) || *v.v <= 0 {
 			return nil, bad(v.key, "%s %v must be a positive number", v.key, *v.v)
 		}
+		if v.key == "margin" && *v.v > 1 {
+			return nil, bad(v.key, "margin %v must be in (0, 1]: it is the share of the KPI's value that is profit", *v.v)
+		}
 		*v.dst = *v.v
 	}
 	if f.Currency != nil {
@@ -276,6 +312,7 @@ func ParsePlan(data []byte, source string) (*Plan, error) {
 		}
 		p.Currency = c
 	}
+	p.valueSet, p.marginSet = f.ValuePerKPI != nil, f.Margin != nil
 	return p, nil
 }
 

@@ -99,7 +99,7 @@ func TestParsePlanErrors(t *testing.T) {
 		{"min above max", "channels:\n  tv: {min: 10, max: 5}\n", "plan.yaml:2:17: channels.tv.max: max 5 is below min 10"},
 		{"negative max_change", "channels:\n  tv:\n    max_change: -0.2\n", "plan.yaml:3:5: channels.tv.max_change: max_change -0.2 must not be negative"},
 		{"negative current", "channels:\n  tv: {current: -1}\n", "plan.yaml:2:8: channels.tv.current: current -1 must not be negative"},
-		{"infinite max", "channels:\n  tv: {max: .inf}\n", "plan.yaml:2:8: channels.tv.max: +Inf is not a finite number"},
+		{"infinite max", "channels:\n  tv: {max: .inf}\n", "plan.yaml:2:13: channels.tv.max: .inf is not a finite number"},
 		{"share above 1", "groups:\n  - {name: b, channels: [x], min_share: 1.2}\n", "plan.yaml:2:30: groups[0].min_share: min_share 1.2 must lie in [0, 1]"},
 		{"shares crossed", "groups:\n  - {name: b, channels: [x], min_share: 0.5, max_share: 0.2}\n", "groups[0].max_share: max_share 0.2 is below min_share 0.5"},
 		{"group without name", "groups:\n  - {channels: [x]}\n", "plan.yaml:2:5: groups[0]: group needs a name"},
@@ -110,7 +110,9 @@ func TestParsePlanErrors(t *testing.T) {
 		{"quantile level", "objective: quantile:1.5\n", "objective: objective \"quantile:1.5\": quantile level 1.5 must lie strictly between 0 and 1"},
 		{"cvar weight", "objective: cvar:0.05:-1\n", "weight -1 must not be negative"},
 		{"zero margin", "margin: 0\n", "plan.yaml:1:1: margin: margin 0 must be a positive number"},
-		{"horizon", "horizon_weeks: 0\n", "plan.yaml:1:1: horizon_weeks: horizon 0 weeks must be at least 1"},
+		{"horizon", "horizon_weeks: 0\n", "plan.yaml:1:1: horizon_weeks: horizon 0 weeks must be between 1 and 104"},
+		{"horizon too long", "horizon_weeks: 100000000\n", "plan.yaml:1:1: horizon_weeks: horizon 100000000 weeks must be between 1 and 104"},
+		{"margin above 1", "margin: 1.5\n", "plan.yaml:1:1: margin: margin 1.5 must be in (0, 1]"},
 		{"empty", "", "plan.yaml: file is empty"},
 	}
 	for _, c := range cases {

@@ -4,6 +4,8 @@ import (
 	"errors"
 	"math"
 	"slices"
+
+	"gonum.org/v1/gonum/floats"
 )
 
 // errQPStalled reports that the active-set method did not finish within its
@@ -301,13 +303,8 @@ func cholSolve(L []float64, n int, x []float64) {
 	backward(L, n, x)
 }
 
-func dot(x, y []float64) float64 {
-	var s float64
-	for i, v := range x {
-		s += v * y[i]
-	}
-	return s
-}
+// dot is floats.Dot (gonum), as in internal/varpro.
+func dot(x, y []float64) float64 { return floats.Dot(x, y) }
 
 func axpy(a float64, x, y []float64) {
 	for i, v := range x {

@@ -70,7 +70,8 @@
 //	                           current spend (0.10: ±10%); 0: no change; in
 //	                           [0, 1].
 //	evidence.families.F        {on_fail, on_warn} for family F (accuracy,
-//	                           recovery, stability, lift, reconciliation);
+//	                           recovery, stability, lift, reconciliation,
+//	                           identification);
 //	                           absent fields inherit the defaults above.
 //	evidence.checks.NAME       {on_fail, on_warn} for the check called NAME;
 //	                           overrides its family.

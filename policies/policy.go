@@ -13,6 +13,7 @@ import (
 	"path/filepath"
 	"strings"
 
+	"sluice/internal/boundedio"
 	"sluice/internal/strictyaml"
 	"sluice/validation"
 )
@@ -305,7 +306,7 @@ func (p *Policy) KeyPEM(role string) ([][]byte, error) {
 			out = append(out, e.PEM)
 			continue
 		}
-		b, err := os.ReadFile(p.keyPath(e.Path))
+		b, err := boundedio.ReadFile(p.keyPath(e.Path), boundedio.MaxInput)
 		if err != nil {
 			return nil, fmt.Errorf("policies: %s: roles.%s.keys[%d]: %w", p.Source, role, i, err)
 		}
@@ -377,13 +378,13 @@ var Verdicts = []string{"approve", "downsize", "refuse"}
 // Families are the evidence families a policy may name.
 var Families = []validation.Family{
 	validation.Accuracy, validation.Recovery, validation.Stability,
-	validation.Lift, validation.Reconciliation,
+	validation.Lift, validation.Reconciliation, validation.Identification,
 }
 
 // Load reads, decodes and checks the policy file at path. Key file paths in
 // it are taken relative to the file and must exist.
 func Load(path string) (*Policy, error) {
-	data, err := os.ReadFile(path)
+	data, err := boundedio.ReadFile(path, boundedio.MaxInput)
 	if err != nil {
 		return nil, err
 	}

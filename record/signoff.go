@@ -11,7 +11,6 @@ import (
 	"io"
 	"io/fs"
 	"mime"
-	"os"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -19,6 +18,7 @@ import (
 	"unicode/utf8"
 
 	"sluice/internal/atomicfile"
+	"sluice/internal/boundedio"
 )
 
 // Waiver is a signer's explicit acceptance of a check that did not pass.
@@ -374,7 +374,7 @@ func SignaturesPath(recordPath string) string {
 // sign-off by the same key in the same role. Two signers appending at the
 // same moment can lose one sign-off (last rename wins); sign one at a time.
 func AppendSignoff(recordPath string, s Signoff) error {
-	rec, err := os.ReadFile(recordPath)
+	rec, err := boundedio.ReadFile(recordPath, boundedio.MaxInput)
 	if err != nil {
 		return fmt.Errorf("record: %w", err)
 	}
@@ -433,7 +433,7 @@ func Withdraw(record []byte, key ed25519.PrivateKey, role string, at time.Time) 
 // key, and both the withdrawal and the withdrawn sign-off must verify with
 // it), or when there is no such sign-off.
 func WithdrawSignoff(recordPath string, w Signoff, pub ed25519.PublicKey) error {
-	rec, err := os.ReadFile(recordPath)
+	rec, err := boundedio.ReadFile(recordPath, boundedio.MaxInput)
 	if err != nil {
 		return fmt.Errorf("record: %w", err)
 	}
@@ -503,7 +503,7 @@ func (e *ParseError) Error() string {
 // wraps fs.ErrNotExist; other errors are a *ParseError naming the file and
 // the line and column or the JSON field.
 func ReadSignoffs(path string) ([]Signoff, error) {
-	data, err := os.ReadFile(path)
+	data, err := boundedio.ReadFile(path, boundedio.MaxInput)
 	if err != nil {
 		return nil, fmt.Errorf("record: %w", err)
 	}
@@ -591,7 +591,7 @@ func ParseSignatures(data []byte) (*Signatures, error) {
 
 // ReadSignatures reads a signatures file, like [ReadSignoffs].
 func ReadSignatures(path string) (*Signatures, error) {
-	data, err := os.ReadFile(path)
+	data, err := boundedio.ReadFile(path, boundedio.MaxInput)
 	if err != nil {
 		return nil, fmt.Errorf("record: %w", err)
 	}

@@ -7,7 +7,6 @@ import (
 	"fmt"
 	"io"
 	"io/fs"
-	"os"
 	"regexp"
 	"slices"
 	"sort"
@@ -15,6 +14,7 @@ import (
 	"time"
 
 	"sluice/gate"
+	"sluice/internal/boundedio"
 	"sluice/policies"
 )
 
@@ -299,7 +299,7 @@ func hashFile(path string) (string, error) {
 	if path == "" || strings.HasPrefix(path, "preset:") {
 		return "", fs.ErrNotExist
 	}
-	f, err := os.Open(path)
+	f, err := boundedio.Open(path, boundedio.MaxDraws) // inputs include draws files
 	if err != nil {
 		return "", err
 	}
@@ -350,7 +350,7 @@ func waiversStillSigned(path string, d *Decision, p *policies.Policy) string {
 		return err.Error()
 	}
 	earlier := strings.TrimSuffix(path, ".signatures.json") + ".json"
-	body, err := os.ReadFile(earlier)
+	body, err := boundedio.ReadFile(earlier, boundedio.MaxInput)
 	if err != nil {
 		return fmt.Sprintf("the signed record beside it: %v", err)
 	}

@@ -272,9 +272,11 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	if len(draws) == 0 {
 		return nil, errors.New("bootstrap: every refit failed")
 	}
+	th := validation.DefaultThresholds()
+	th.BreakEven = p.Plan.BreakEvenMROI() // the plan's own break-even, as propose uses
 	val, err := validation.Run(validation.Problem{Panel: w.Panel, Design: dw, Fit: fit,
 		Draws: &validation.Draws{Params: draws, Failed: bd.Failed()}},
-		validation.DefaultThresholds(), validation.Settings{Seed: w.Seed, Workers: s.Workers,
+		th, validation.Settings{Seed: w.Seed, Workers: s.Workers,
 			Replicates: s.Replicates, ValuePerKPI: p.Plan.ValuePerKPI})
 	if err != nil {
 		return nil, fmt.Errorf("validation: %w", err)

@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"gonum.org/v1/gonum/stat"
+
 	"sluice/model"
 	"sluice/uncertainty"
 )
@@ -179,24 +181,14 @@ func withBeta(p model.Params, k int, beta float64) model.Params {
 	return q
 }
 
+// meanSD is the mean and the sample standard deviation (n − 1, gonum/stat;
+// 0 for a single value).
 func meanSD(x []float64) (mean, sd float64) {
-	for _, v := range x {
-		mean += v
+	if len(x) < 2 {
+		return stat.Mean(x, nil), 0
 	}
-	mean /= float64(len(x))
-	for _, v := range x {
-		sd += (v - mean) * (v - mean)
-	}
-	return mean, math.Sqrt(sd / float64(max(len(x)-1, 1)))
+	return stat.MeanStdDev(x, nil)
 }
 
-// ar1 returns a stationary AR(1) series with unit variance.
-func ar1(rng *rand.Rand, n int, phi float64) []float64 {
-	z := make([]float64, n)
-	s := math.Sqrt(1 - phi*phi)
-	z[0] = rng.NormFloat64()
-	for i := 1; i < n; i++ {
-		z[i] = phi*z[i-1] + s*rng.NormFloat64()
-	}
-	return z
-}
+// ar1 is model.AR1, the project's one AR(1) generator.
+func ar1(rng *rand.Rand, n int, phi float64) []float64 { return model.AR1(rng, n, phi) }

@@ -8,10 +8,10 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"slices"
 	"strings"
 
+	"sluice/internal/boundedio"
 	"sluice/model"
 )
 
@@ -248,7 +248,7 @@ func (d *Draws) Attempts() (n [3]int) {
 
 // ReadDraws reads and checks a draws file.
 func ReadDraws(path string) (*Draws, error) {
-	f, err := os.Open(path)
+	f, err := boundedio.Open(path, boundedio.MaxDraws)
 	if err != nil {
 		return nil, err
 	}

@@ -7,6 +7,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"sluice/internal/lsq"
 	"sluice/model"
 )
 
@@ -174,15 +175,8 @@ func fitHead(d *model.Design, y []float64, n int, set Settings) (*model.FitResul
 // there could not get past.
 func fixedIndependent(d *model.Design, n int) error {
 	_, p := d.Fixed.Dims()
-	var qr mat.QR
-	qr.Factorize(d.Fixed.Slice(0, n, 0, p))
-	var rr mat.Dense
-	qr.RTo(&rr)
-	names := d.Spec.FixedNames()
-	for i := range p {
-		if math.Abs(rr.At(i, i)) < 1e-12*math.Abs(rr.At(0, 0)) {
-			return fmt.Errorf("the fixed column %q is a combination of the others on the first %d weeks (a control constant there?)", names[i], n)
-		}
+	if i := lsq.DependentColumn(d.Fixed.Slice(0, n, 0, p)); i >= 0 {
+		return fmt.Errorf("the fixed column %q is a combination of the others on the first %d weeks (a control constant there?)", d.Spec.FixedNames()[i], n)
 	}
 	return nil
 }

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 
+	"gonum.org/v1/gonum/stat"
+
 	"sluice/model"
 )
 
@@ -93,17 +95,12 @@ func (r *DrawsResult) Checks(th Thresholds) []Check {
 			check("stability/roi_cv", Stability, name, th.ROICV.above(r.ROICV[k]), r.ROICV[k], th.ROICV.Fail,
 				"ROI over %d draws: mean %.3g, SD %.3g; warn above %.2g", r.N, r.ROIMean[k], r.ROISD[k], th.ROICV.Warn),
 			check("stability/break_even", Stability, name, th.BreakEvenFlip.above(r.Flip[k]), r.Flip[k], th.BreakEvenFlip.Fail,
-				"marginal ROI %.3g is %s break-even %.3g; %.0f%% of %d draws say otherwise; warn above %.0f%%",
+				"marginal ROI %.3g (KPI value per currency) is %s break-even %.3g; %.0f%% of %d draws say otherwise; warn above %.0f%%",
 				r.PointMROI[k], side, r.BreakEven, 100*r.Flip[k], r.N, 100*th.BreakEvenFlip.Warn),
 		)
 	}
 	return out
 }
 
-func meanOf(x []float64) float64 {
-	var s float64
-	for _, v := range x {
-		s += v
-	}
-	return s / float64(len(x))
-}
+// meanOf is the arithmetic mean (gonum/stat).
+func meanOf(x []float64) float64 { return stat.Mean(x, nil) }

@@ -8,12 +8,12 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"slices"
 	"strconv"
 	"strings"
 	"time"
 
+	"sluice/internal/boundedio"
 	"sluice/model"
 )
 
@@ -39,7 +39,7 @@ var LiftColumns = []string{"channel", "start", "end", "incremental", "std_error"
 
 // LoadLifts reads the lift-test CSV file at path (see ReadLifts).
 func LoadLifts(path string, p *model.Panel) ([]LiftTest, error) {
-	f, err := os.Open(path)
+	f, err := boundedio.Open(path, boundedio.MaxInput)
 	if err != nil {
 		return nil, err
 	}

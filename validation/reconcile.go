@@ -11,8 +11,10 @@ import (
 	"path/filepath"
 	"slices"
 	"sort"
+	"strings"
 	"time"
 
+	"sluice/internal/boundedio"
 	"sluice/model"
 )
 
@@ -76,8 +78,20 @@ func NewForecast(d *model.Design, origin time.Time, params model.Params, plan ma
 	return fc
 }
 
-// LoadForecasts reads every *.json file of dir, in name order.
+// LoadForecasts reads every *.json file of dir, in name order: forecast
+// files and decision records. The companions that `sluice propose --out`
+// and `sluice sign` write beside a record (brief.json, the manifest
+// outputs.json, *.signatures.json)
+// are not forecasts and are passed over, so dir may be a folder propose
+// wrote; any other JSON file must be a forecast or a record.
 func LoadForecasts(dir string) ([]*Forecast, error) {
+	fi, err := os.Stat(dir)
+	if err != nil {
+		return nil, err
+	}
+	if !fi.IsDir() {
+		return nil, fmt.Errorf("%s: not a directory: --records names the folder of earlier decisions (what propose --out wrote)", dir)
+	}
 	names, err := filepath.Glob(filepath.Join(dir, "*.json"))
 	if err != nil {
 		return nil, err
@@ -85,7 +99,10 @@ func LoadForecasts(dir string) ([]*Forecast, error) {
 	sort.Strings(names)
 	var out []*Forecast
 	for _, n := range names {
-		b, err := os.ReadFile(n)
+		if base := filepath.Base(n); base == "brief.json" || base == "outputs.json" || strings.HasSuffix(base, ".signatures.json") {
+			continue
+		}
+		b, err := boundedio.ReadFile(n, boundedio.MaxInput)
 		if err != nil {
 			return nil, err
 		}

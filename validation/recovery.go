@@ -7,6 +7,7 @@ import (
 	"slices"
 
 	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat"
 
 	"sluice/model"
 	"sluice/uncertainty"
@@ -241,18 +242,11 @@ func (r *RecoverResult) Checks(th Thresholds) []Check {
 	return out
 }
 
+// sd is the sample standard deviation (n − 1 denominator, gonum/stat); 0
+// for fewer than two values.
 func sd(x []float64) float64 {
 	if len(x) < 2 {
 		return 0
 	}
-	var m float64
-	for _, v := range x {
-		m += v
-	}
-	m /= float64(len(x))
-	var s float64
-	for _, v := range x {
-		s += (v - m) * (v - m)
-	}
-	return math.Sqrt(s / float64(len(x)-1))
+	return stat.StdDev(x, nil)
 }

@@ -59,6 +59,7 @@ func Run(p Problem, th Thresholds, set Settings) (*Result, error) {
 	}
 	add := func(c []Check) { r.Evidence.Checks = append(r.Evidence.Checks, c...) }
 	add(r.Backtest.Checks(th))
+	add(IdentificationChecks(d, r.Fit.Params))
 	if r.Recovery, err = Recover(d, r.Fit, set); err != nil {
 		return nil, err
 	}

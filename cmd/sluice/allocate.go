@@ -4,6 +4,8 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
+	"strings"
 	"text/tabwriter"
 
 	"github.com/urfave/cli/v2"
@@ -11,6 +13,7 @@ import (
 	"sluice/internal/words"
 	"sluice/model"
 	"sluice/optimize"
+	"sluice/policies"
 )
 
 func allocateCommand() *cli.Command {
@@ -39,6 +42,9 @@ func allocateCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
+			if err := reconcilePlan(in, plan); err != nil {
+				return err
+			}
 			var draws []model.Params
 			var point model.Params
 			source := "the point fit only (no --draws given)"
@@ -62,6 +68,10 @@ func allocateCommand() *cli.Command {
 				return err
 			}
 			out := newAllocateOutput(in, res, source, plan.HorizonWeeks)
+			if out.Warnings, err = supportWarnings(in, out.Channels); err != nil {
+				return err
+			}
+			out.Warnings = append(out.Warnings, darkWarnings(plan, out.Channels)...)
 			if o.Bool("json") {
 				return printJSON(c.App.Writer, out)
 			}
@@ -95,10 +105,57 @@ type allocateOutput struct {
 	Horizon      int                `json:"horizon_weeks"`
 	ExpectedGain float64            `json:"expected_gain"`
 	Channels     []allocatedChannel `json:"channels"`
+	MROIUnit     string             `json:"mroi_unit"` // what mroi_current and mroi_proposed count
 	KKT          kktOutput          `json:"kkt"`
 	Starts       int                `json:"starts"`
 	Agreed       int                `json:"starts_agreed"`
 	Status       string             `json:"status"`
+	// Warnings name each channel the proposal takes outside the spend the
+	// data has seen, as propose's support guard would hold it.
+	Warnings []string `json:"warnings,omitempty"`
+}
+
+// darkWarnings names each channel whose current spend is 0 (a flighted
+// channel dark through the last weeks, or one not yet launched) while the
+// plan bounds it by max_change: a change relative to 0 keeps it at 0, so
+// the allocator cannot move it whatever its marginal ROI.
+func darkWarnings(plan *optimize.Plan, chans []allocatedChannel) []string {
+	var out []string
+	for _, c := range chans {
+		cp, ok := plan.Channels[c.Name]
+		if ok && c.Current == 0 && !math.IsInf(cp.MaxChange, 1) && !cp.Locked {
+			out = append(out, fmt.Sprintf("%s: current spend is 0 (no spend in the last %d weeks), so max_change %g keeps it at 0 whatever it returns; hint: bound it with min and max in %s instead, or give its current spend",
+				c.Name, model.CurrentWeeks, cp.MaxChange, plan.Locate("channels."+c.Name)))
+		}
+	}
+	return out
+}
+
+// supportWarnings says, per channel, when the proposal leaves the support
+// guard's range of the default policy (the one propose uses without
+// --policy): from low_multiple × the lowest to high_multiple × the highest
+// 4-week average spend in the data (model.Design.Support). A move towards
+// current spend is never warned about: the guard allows current spend.
+func supportWarnings(in *modelInput, chans []allocatedChannel) ([]string, error) {
+	pol, err := policies.Resolve("standard")
+	if err != nil {
+		return nil, err
+	}
+	low, high := in.Design.Support()
+	var out []string
+	for k, c := range chans {
+		lo := min(pol.Support.LowMultiple*low[k], c.Current)
+		hi := max(pol.Support.HighMultiple*high[k], c.Current)
+		switch {
+		case c.Proposed > hi:
+			out = append(out, fmt.Sprintf("%s: proposed %s/week is above the %s/week the data supports (%g × its highest 4-week average %s); propose under the standard policy would hold it there; hint: widen max in the plan only with an experiment to learn from",
+				c.Name, money(c.Proposed), money(hi), pol.Support.HighMultiple, money(high[k])))
+		case c.Proposed < lo:
+			out = append(out, fmt.Sprintf("%s: proposed %s/week is below the %s/week the data supports (%g × its lowest 4-week average %s); propose under the standard policy would hold it there; hint: set min in the plan to keep the channel within what was seen",
+				c.Name, money(c.Proposed), money(lo), pol.Support.LowMultiple, money(low[k])))
+		}
+	}
+	return out, nil
 }
 
 type allocatedChannel struct {
@@ -121,7 +178,8 @@ func newAllocateOutput(in *modelInput, r *optimize.Result, source string, horizo
 	out := allocateOutput{Tool: "sluice", Version: version, Seed: in.Seed, Source: source, Horizon: horizon,
 		Objective: r.Objective.String(), Budget: r.Spend, ExpectedGain: r.ExpectedGain,
 		KKT:    kktOutput{OK: r.KKT.OK, MaxViolation: r.KKT.MaxViolation, Multiplier: r.KKT.Multiplier, Detail: r.KKT.Detail},
-		Starts: len(r.Starts), Agreed: r.Agreed, Status: r.Status.String()}
+		Starts: len(r.Starts), Agreed: r.Agreed, Status: r.Status.String(),
+		MROIUnit: "profit per currency at the margin (break-even 1)"}
 	for _, c := range r.Channels {
 		out.Channels = append(out.Channels, allocatedChannel{Name: c.Name, Current: c.Current, Proposed: c.Proposed,
 			Change: c.Change, MROICurrent: c.MROICurrent, MROIProposed: c.MROIProposed})
@@ -130,7 +188,7 @@ func newAllocateOutput(in *modelInput, r *optimize.Result, source string, horizo
 }
 
 func printAllocation(w io.Writer, a allocateOutput) {
-	fmt.Fprintf(w, "proposal over %s; objective %s; weekly spend and marginal ROI (profit per currency at the margin)\n\n", a.Source, a.Objective)
+	fmt.Fprintf(w, "proposal over %s; objective %s; weekly spend and marginal ROI (profit per currency at the margin; break-even 1)\n\n", a.Source, a.Objective)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintln(tw, "channel\tcurrent\tproposed\tchange\tmROI now\tmROI proposed\t")
 	for _, c := range a.Channels {
@@ -143,6 +201,13 @@ func printAllocation(w io.Writer, a allocateOutput) {
 		ok = "FAILS"
 	}
 	fmt.Fprintf(w, "optimality check %s (largest violation %s): %s; %d of %d starts agreed; %s\n", ok, plain(a.KKT.MaxViolation, 2), a.KKT.Detail, a.Agreed, a.Starts, a.Status)
+	for _, wn := range a.Warnings {
+		text, hint, _ := strings.Cut(wn, "; hint: ")
+		fmt.Fprintf(w, "warning: %s\n", text)
+		if hint != "" {
+			fmt.Fprintf(w, "hint: %s\n", hint)
+		}
+	}
 	fmt.Fprintln(w, "this is a proposal: `sluice propose` sizes each move to what the evidence supports")
 }
 

@@ -319,7 +319,7 @@ type curvesSummary struct {
 }
 
 func printCurvesTable(w io.Writer, s curvesSummary, horizon int) {
-	fmt.Fprintf(w, "ROI over the data and marginal ROI at current spend (%d-week horizon), over %d successful of %d bootstrap draws (%d failed)\n",
+	fmt.Fprintf(w, "ROI over the data and marginal ROI at current spend (%d-week horizon), both KPI value per currency (break-even 1/margin), over %d successful of %d bootstrap draws (%d failed)\n",
 		horizon, s.Draws-s.Failed, s.Draws, s.Failed)
 	fmt.Fprintf(w, "%s bootstrap, block length %s, seed %d; quantiles Hyndman–Fan type %d; intervals are percentile intervals\n\n",
 		s.Method, plain(s.BlockLength, 3), s.Seed, s.QuantileType)

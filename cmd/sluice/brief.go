@@ -5,7 +5,6 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"os"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -14,6 +13,7 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"sluice/internal/atomicfile"
+	"sluice/internal/boundedio"
 	"sluice/internal/sample"
 	"sluice/model"
 	"sluice/optimize"
@@ -152,7 +152,7 @@ func reportCommand() *cli.Command {
 			if path == "" {
 				return withHint(errors.New("report needs --record"), "sluice report --record DIR/decision.json")
 			}
-			body, err := os.ReadFile(path)
+			body, err := boundedio.ReadFile(path, boundedio.MaxInput)
 			if err != nil {
 				return err
 			}
@@ -199,7 +199,7 @@ func reportCommand() *cli.Command {
 // that it was made for the record's bytes.
 func readBriefData(path string, body []byte) (*briefData, error) {
 	bp := filepath.Join(filepath.Dir(path), "brief.json")
-	raw, err := os.ReadFile(bp)
+	raw, err := boundedio.ReadFile(bp, boundedio.MaxInput)
 	if err != nil {
 		return nil, withHint(err, "brief.json is written by sluice propose beside decision.json")
 	}

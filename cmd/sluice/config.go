@@ -10,6 +10,9 @@ import (
 
 	"github.com/spf13/viper"
 	"github.com/urfave/cli/v2"
+
+	"sluice/internal/boundedio"
+	"sluice/internal/strictyaml"
 )
 
 // configFile is the optional defaults file in the working directory.
@@ -41,7 +44,7 @@ func newOpts(c *cli.Context) (*opts, error) {
 	v.SetEnvKeyReplacer(strings.NewReplacer("-", "_"))
 	v.AutomaticEnv()
 	if _, err := os.Stat(configFile); err == nil {
-		data, err := os.ReadFile(configFile)
+		data, err := boundedio.ReadFile(configFile, boundedio.MaxInput)
 		if err != nil {
 			return nil, err
 		}
@@ -63,6 +66,14 @@ const maxConfigSize = 1 << 20
 func readConfig(v *viper.Viper, data []byte, commands []*cli.Command) error {
 	if len(data) > maxConfigSize {
 		return fmt.Errorf("%s: larger than %d bytes, not a defaults file", configFile, maxConfigSize)
+	}
+	// Parsed once more for the errors' sake: strictyaml names
+	// sluice.yaml:line for any YAML error, viper does not.
+	var probe map[string]any
+	if len(bytes.TrimSpace(data)) > 0 {
+		if err := strictyaml.Decode(data, configFile, &probe); err != nil {
+			return err
+		}
 	}
 	v.SetConfigType("yaml")
 	if err := v.ReadConfig(bytes.NewReader(data)); err != nil {
@@ -101,6 +112,12 @@ func checkConfigKeys(v *viper.Viper, commands []*cli.Command) error {
 
 func (o *opts) fromConfig(name string) bool {
 	return !o.c.IsSet(name) && o.v.IsSet(name)
+}
+
+// isSet reports whether the flag was given on the command line, in the
+// environment or in sluice.yaml (rather than left at its default).
+func (o *opts) isSet(name string) bool {
+	return o.c.IsSet(name) || o.v.IsSet(name)
 }
 
 func (o *opts) String(name string) string {

@@ -4,11 +4,13 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"strings"
 	"text/tabwriter"
 
 	"github.com/urfave/cli/v2"
 
 	"sluice/internal/atomicfile"
+	"sluice/internal/varpro"
 	"sluice/model"
 	"sluice/validation"
 )
@@ -46,6 +48,7 @@ func fitCommand() *cli.Command {
 					sum.Effect = append(sum.Effect, er)
 				}
 			}
+			sum.Warnings = fitWarnings(sum, fr, in, o.isSet("value-per-kpi"))
 			if out := o.String("out"); out != "" {
 				if err := writeJSON(out, sum); err != nil {
 					return err
@@ -70,9 +73,17 @@ type fitSummary struct {
 	Weeks    int                    `json:"weeks"`
 	Horizon  int                    `json:"horizon_weeks"`
 	Channels []model.ChannelSummary `json:"channels"`
-	Fit      fitInfo                `json:"fit"`
-	Params   model.Params           `json:"params"`
-	Fixed    []string               `json:"fixed_columns"`
+	// ROIUnit says what ROI and mroi count: KPI value per currency.
+	ROIUnit string       `json:"roi_unit"`
+	Fit     fitInfo      `json:"fit"`
+	Params  model.Params `json:"params"`
+	Fixed   []string     `json:"fixed_columns"`
+	// Identification names, per channel, the parameters left on a bound
+	// of their box and an effect fitted to zero (model.Identify).
+	Identification []model.Identification `json:"identification"`
+	// Warnings are the fit's own doubts about itself, one line each with
+	// its hint after "hint: ".
+	Warnings []string `json:"warnings,omitempty"`
 	// Drifting is each drifting channel's effectiveness in the last week
 	// over its history average (from the fit); Effect the effectiveness
 	// check (fit --effect-check).
@@ -125,25 +136,81 @@ func newFitSummary(in *modelInput, fr *model.FitResult) fitSummary {
 		Fit: fitInfo{Stats: model.FitStats(in.Panel.KPI, fr.Residuals, in.Spec.NumParams()),
 			SSE: fr.SSE, Status: fr.Status.String(), Starts: fr.StartsTried, Converged: fr.Converged,
 			Evaluations: fr.Evaluations, Parameters: in.Spec.NumParams()},
-		Params: fr.Params,
-		Fixed:  in.Spec.FixedNames(),
+		ROIUnit:        "KPI value per currency (value per KPI unit applied; not profit: break-even is 1/margin)",
+		Params:         fr.Params,
+		Fixed:          in.Spec.FixedNames(),
+		Identification: in.Design.Identify(fr.Params),
 	}
 }
 
+// Durbin–Watson outside [dwLow, dwHigh] is warned about: the residuals are
+// autocorrelated, so the fit misses a structure (a trend, a season, a
+// carryover) and in-sample errors understate the real ones. The band is a
+// rule of thumb (common practice, no source).
+const dwLow, dwHigh = 1.5, 2.5
+
+// moneyWords mark a KPI column that is already money; see fitWarnings.
+var moneyWords = []string{"revenue", "sales", "value", "gmv", "turnover", "income", "profit", "margin", "amount", "spend", "eur", "usd", "gbp"}
+
+// fitWarnings lists what the fit says about itself: a fit that did not
+// converge, Durbin–Watson far from 2, and a KPI that looks like a count of
+// units read as currency. The last rule: when --value-per-kpi is not given
+// (nor in sluice.yaml or SLUICE_VALUE_PER_KPI) and the KPI's column name
+// contains none of moneyWords, ROI would be KPI units per currency, so fit
+// says so with a hint. Each warning is "text; hint: fix".
+func fitWarnings(s fitSummary, fr *model.FitResult, in *modelInput, valueGiven bool) []string {
+	var out []string
+	if fr.Status != varpro.Converged {
+		out = append(out, fmt.Sprintf("the best start of the fit stopped with status %q, not converged; hint: raise --starts or narrow the bounds in --spec, and read every figure below as provisional", fr.Status))
+	} else if fr.Converged < fr.StartsTried {
+		out = append(out, fmt.Sprintf("only %d of %d starts converged; hint: the best start converged, but raise --starts if the figures change between runs with other seeds", fr.Converged, fr.StartsTried))
+	}
+	if dw := s.Fit.DurbinWatson; dw < dwLow || dw > dwHigh {
+		kind := "positively"
+		if dw > dwHigh {
+			kind = "negatively"
+		}
+		out = append(out, fmt.Sprintf("Durbin–Watson %.2f is far from 2 (outside %.1f to %.1f): the residuals are %s autocorrelated, so the model misses some structure and in-sample figures flatter it; hint: add the control or season that drives the KPI, check for a break in the data, and rely on `sluice validate`'s holdout and backtest", dw, dwLow, dwHigh, kind))
+	}
+	if !valueGiven && in.ValuePerKPI == 1 {
+		name := strings.ToLower(in.Panel.KPIName)
+		money := false
+		for _, w := range moneyWords {
+			money = money || strings.Contains(name, w)
+		}
+		if !money {
+			out = append(out, fmt.Sprintf("kpi %q is read as currency (value per KPI unit 1), so ROI is %s per currency; hint: if it counts units (orders, sign-ups, visits), give --value-per-kpi, the currency one unit is worth", in.Panel.KPIName, in.Panel.KPIName))
+		}
+	}
+	return out
+}
+
 func printFitTable(w io.Writer, s fitSummary) {
-	fmt.Fprintf(w, "%s over %d weeks; ROI and marginal ROI in currency per currency; current spend = mean of the last %d weeks\n\n",
+	fmt.Fprintf(w, "%s over %d weeks; ROI and marginal ROI are KPI value per currency (not profit: break-even is 1/margin); current spend = mean of the last %d weeks\n\n",
 		s.KPI, s.Weeks, model.CurrentWeeks)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintln(tw, "channel\tspend share\tcontribution share\tROI\tmarginal ROI\thalf-life (weeks)\tsaturation at current\t")
-	for _, c := range s.Channels {
-		fmt.Fprintf(tw, "%s\t%.1f%%\t%.1f%%\t%.2f\t%.2f\t%.1f\t%.0f%%\t\n", c.Name, 100*c.SpendShare,
-			100*c.ContributionShare, c.ROI, c.MROI, c.HalfLifeWeeks, 100*c.Saturation)
+	fmt.Fprintln(tw, "channel\tspend share\tcontribution share\tROI\tmarginal ROI\thalf-life (weeks)\tsaturation at current\tsettled by the data\t")
+	for k, c := range s.Channels {
+		settled := "yes"
+		if k < len(s.Identification) && !s.Identification[k].Identified() {
+			settled = "NO (see note)"
+		}
+		fmt.Fprintf(tw, "%s\t%.1f%%\t%.1f%%\t%.2f\t%.2f\t%.1f\t%.0f%%\t%s\t\n", c.Name, 100*c.SpendShare,
+			100*c.ContributionShare, c.ROI, c.MROI, c.HalfLifeWeeks, 100*c.Saturation, settled)
 	}
 	tw.Flush()
+	printIdentification(w, s.Identification)
 	f := s.Fit
 	fmt.Fprintf(w, "\nin-sample R² %.3f  wMAPE %.1f%%  residual SD %s  Durbin–Watson %.2f\n", f.R2, 100*f.WMAPE, plain(f.Sigma, 4), f.DurbinWatson)
 	fmt.Fprintf(w, "fit: %s; %d of %d starts converged; best SSE %s; %d evaluations; %d parameters; seed %d\n",
 		f.Status, f.Converged, f.Starts, plain(f.SSE, 6), f.Evaluations, f.Parameters, s.Seed)
+	for _, wn := range s.Warnings {
+		text, hint, _ := strings.Cut(wn, "; hint: ")
+		fmt.Fprintf(w, "warning: %s\n", text)
+		if hint != "" {
+			fmt.Fprintf(w, "hint: %s\n", hint)
+		}
+	}
 	fmt.Fprintln(w, "in-sample fit is not evidence of a good model: run `sluice validate` for holdout and recovery checks")
 	printEffect(w, s)
 }
@@ -194,6 +261,28 @@ func printEffectCheck(w io.Writer, e *validation.EffectResult) {
 		fmt.Fprintf(w, "  evidence favours the %s specification: hint: refit with --%s naming the changed channels (or all)\n", e.Kind, e.Kind)
 	} else {
 		fmt.Fprintf(w, "  evidence favours the %s specification\n", e.Prefer)
+	}
+}
+
+// printIdentification writes a note line per finding of model.Identify,
+// each followed by its hint.
+func printIdentification(w io.Writer, ids []model.Identification) {
+	first := true
+	for _, id := range ids {
+		if id.Identified() {
+			continue
+		}
+		if first {
+			fmt.Fprintln(w)
+			first = false
+		}
+		for _, h := range id.Hints {
+			text, hint, _ := strings.Cut(h, ": ")
+			if id.ZeroEffect && strings.HasPrefix(h, "its effect") {
+				text, hint = "its effect is fitted to zero", strings.TrimPrefix(h, "its effect is fitted to zero: ")
+			}
+			fmt.Fprintf(w, "note: %s: %s\n  hint: %s\n", id.Channel, text, hint)
+		}
 	}
 }
 

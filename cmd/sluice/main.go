@@ -13,6 +13,7 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/internal/boundedio"
 	"sluice/model"
 )
 
@@ -51,6 +52,13 @@ func printError(w io.Writer, err error) {
 	var de *model.DataError
 	if errors.As(err, &de) && de.Hint != "" {
 		fmt.Fprintf(w, "hint: %s\n", de.Hint)
+	}
+	if errors.Is(err, model.ErrBaseDependent) {
+		fmt.Fprintln(w, "hint: leave that column out of --controls (or the spec's controls); a control that only repeats the trend or the season adds nothing the base does not have")
+	}
+	var be *boundedio.Error
+	if errors.As(err, &be) && be.Hint != "" {
+		fmt.Fprintf(w, "hint: %s\n", be.Hint)
 	}
 	var h hinted
 	if errors.As(err, &h) {

@@ -5,10 +5,11 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"os"
+	"io"
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/internal/boundedio"
 	"sluice/model"
 	"sluice/validation"
 )
@@ -48,6 +49,9 @@ type modelInput struct {
 	DataSHA256  string
 	SpecPath    string
 	SpecSHA256  string // "" without a spec file
+	// Sources says where the value per KPI unit and the horizon came from
+	// (consistency.go), so a plan that contradicts them names both places.
+	Sources map[string]string
 	// LiftsPath is the lift-test file (--lifts, or lifts: in sluice.yaml);
 	// Design carries its tests, so every fit of Design is calibrated with
 	// them. LiftsSHA256 is "" without one.
@@ -142,6 +146,9 @@ func loadModelInput(o *opts) (*modelInput, error) {
 		return nil, err
 	}
 	in.Spec = spec
+	if in.Sources, err = settingSources(o, in); err != nil {
+		return nil, err
+	}
 	if in.Design, err = model.NewDesign(p, spec); err != nil {
 		return nil, err
 	}
@@ -179,11 +186,17 @@ func (in *modelInput) loadLifts(path string) error {
 	return nil
 }
 
+// sha256File hashes the file at path as it streams (a draws file may be
+// far larger than the other inputs: the larger limit applies).
 func sha256File(path string) (string, error) {
-	b, err := os.ReadFile(path)
+	f, err := boundedio.Open(path, boundedio.MaxDraws)
 	if err != nil {
 		return "", err
 	}
-	sum := sha256.Sum256(b)
-	return hex.EncodeToString(sum[:]), nil
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", err
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
 }

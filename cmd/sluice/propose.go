@@ -18,6 +18,7 @@ import (
 
 	"sluice/gate"
 	"sluice/internal/atomicfile"
+	"sluice/internal/boundedio"
 	"sluice/internal/sample"
 	"sluice/internal/strictyaml"
 	"sluice/model"
@@ -113,7 +114,7 @@ func guardSigned(dir string, replace, move bool) error {
 	if !move {
 		return nil
 	}
-	b, err := os.ReadFile(rec)
+	b, err := boundedio.ReadFile(rec, boundedio.MaxInput)
 	if err != nil {
 		return err
 	}
@@ -226,6 +227,9 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	if err != nil {
 		return nil, err
 	}
+	if err := reconcilePlan(in, plan); err != nil {
+		return nil, err
+	}
 	pol, err := policies.Resolve(a.Policy)
 	if err != nil {
 		return nil, err
@@ -284,7 +288,9 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 			return nil, err
 		}
 	}
-	val, err := validation.Run(prob, validation.DefaultThresholds(),
+	th := validation.DefaultThresholds()
+	th.BreakEven = plan.BreakEvenMROI() // the plan's economics break even here (KPI value per currency)
+	val, err := validation.Run(prob, th,
 		validation.Settings{Seed: in.Seed, Workers: in.Workers, ValuePerKPI: plan.ValuePerKPI})
 	if err != nil {
 		return nil, err
@@ -415,7 +421,7 @@ func signedWaivers(path string, pol *policies.Policy) ([]gate.Waiver, error) {
 		return nil, err
 	}
 	recPath := strings.TrimSuffix(path, ".signatures.json") + ".json"
-	body, err := os.ReadFile(recPath)
+	body, err := boundedio.ReadFile(recPath, boundedio.MaxInput)
 	if err != nil {
 		return nil, fmt.Errorf("%s: the signed record beside it: %w", path, err)
 	}

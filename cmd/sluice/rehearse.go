@@ -16,6 +16,7 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/internal/boundedio"
 	"sluice/optimize"
 	"sluice/policies"
 	"sluice/rehearsal"
@@ -95,6 +96,9 @@ func rehearseCommand() *cli.Command {
 			}
 			in, err := loadModelInput(o)
 			if err != nil {
+				return err
+			}
+			if err := reconcilePlan(in, plan); err != nil {
 				return err
 			}
 			ctx, stop := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)
@@ -184,7 +188,7 @@ func rehearseMergeCommand() *cli.Command {
 			var parts [][]rehearsal.Outcome
 			shards := 0 // the N of the shards K/N when all share it
 			for _, path := range c.Args().Slice() {
-				b, err := os.ReadFile(path)
+				b, err := boundedio.ReadFile(path, boundedio.MaxDraws) // about 4.5 KB per world
 				if err != nil {
 					return err
 				}

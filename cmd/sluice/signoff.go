@@ -15,6 +15,7 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"sluice/internal/atomicfile"
+	"sluice/internal/boundedio"
 	"sluice/policies"
 	"sluice/record"
 )
@@ -83,7 +84,7 @@ func signCommand() *cli.Command {
 				}
 				waivers = append(waivers, record.Waiver{Check: w, Reason: c.String("reason")})
 			}
-			body, err := os.ReadFile(path)
+			body, err := boundedio.ReadFile(path, boundedio.MaxInput)
 			if err != nil {
 				return err
 			}

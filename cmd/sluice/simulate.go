@@ -86,7 +86,11 @@ func newTruthFile(sim *model.Simulated) truthFile {
 // writePanelCSV writes a panel in the format the loader reads.
 func writePanelCSV(w io.Writer, p *model.Panel) error {
 	cw := csv.NewWriter(w)
-	header := append([]string{"week", p.KPIName}, p.Channels...)
+	date := p.DateName
+	if date == "" {
+		date = "week"
+	}
+	header := append([]string{date, p.KPIName}, p.Channels...)
 	header = append(header, p.Controls...)
 	if err := cw.Write(header); err != nil {
 		return err

@@ -11,6 +11,7 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"sluice/model"
+	"sluice/optimize"
 	"sluice/validation"
 )
 
@@ -29,6 +30,7 @@ func validateCommand() *cli.Command {
 			&cli.IntFlag{Name: "fold-weeks", Value: 13, Usage: "weeks per backtest fold"},
 			&cli.IntFlag{Name: "replicates", Value: 20, Usage: "simulated panels of the recovery and drift checks"},
 			&cli.IntFlag{Name: "block-weeks", Value: 13, Usage: "weeks left out per stability refit"},
+			&cli.StringFlag{Name: "plan", Usage: "plan YAML whose margin sets the break-even marginal ROI, 1/margin (default: margin 1)"},
 			&cli.StringFlag{Name: "limits", Usage: "threshold overrides, e.g. holdout_wmape=0.08:0.15,break_even=1.2 (warn:fail)"},
 			&cli.BoolFlag{Name: "json", Usage: "print the evidence as JSON instead of the table"},
 			&cli.StringFlag{Name: "out", Usage: "write the evidence (JSON) to this file"},
@@ -102,8 +104,23 @@ func runValidate(c *cli.Context) error {
 		return err
 	}
 	th := validation.DefaultThresholds()
+	breakEven := "break-even marginal ROI 1 (KPI value per currency): margin 1, as no --plan gives one"
+	if path := o.String("plan"); path != "" {
+		plan, err := optimize.LoadPlan(path)
+		if err != nil {
+			return err
+		}
+		if err := reconcilePlan(in, plan); err != nil {
+			return err
+		}
+		th.BreakEven = plan.BreakEvenMROI()
+		breakEven = fmt.Sprintf("break-even marginal ROI %.3g (KPI value per currency) = 1/margin, margin %g from %s", th.BreakEven, plan.Margin, path)
+	}
 	if err := applyLimits(&th, o.List("limits")); err != nil {
 		return err
+	}
+	if th.BreakEven != validation.DefaultThresholds().BreakEven && strings.Contains(strings.Join(o.List("limits"), ","), "break_even=") {
+		breakEven = fmt.Sprintf("break-even marginal ROI %.3g (KPI value per currency), from --limits", th.BreakEven)
 	}
 	set := validation.Settings{Seed: in.Seed, Workers: in.Workers, ValuePerKPI: in.ValuePerKPI,
 		HoldoutWeeks: o.Int("holdout-weeks"), Folds: o.Int("folds"), FoldWeeks: o.Int("fold-weeks"),
@@ -188,6 +205,7 @@ func runValidate(c *cli.Context) error {
 			out.Calibration = append(out.Calibration, calibratedROI{Channel: name, ROI: cal.Before[k], ROICal: cal.After[k]})
 		}
 	}
+	out.Notes = append(out.Notes, breakEven)
 	if prob.Draws == nil {
 		out.Notes = append(out.Notes, "without bootstrap draws the checks of the ROI spread over draws (stability/roi_cv, stability/break_even) did not run and lift z counts the experiment's error only")
 	} else if out.Inputs.Draws == "" {

@@ -15,6 +15,7 @@ import (
 
 	"sluice/gate"
 	"sluice/internal/atomicfile"
+	"sluice/internal/boundedio"
 	"sluice/policies"
 	"sluice/record"
 	"sluice/report"
@@ -45,7 +46,7 @@ func verifyCommand() *cli.Command {
 			if path == "" || polArg == "" {
 				return withHint(errors.New("verify needs --record and --policy"), "sluice verify --record DIR/decision.json --policy policy.yaml")
 			}
-			body, err := os.ReadFile(path)
+			body, err := boundedio.ReadFile(path, boundedio.MaxInput)
 			if err != nil {
 				return err
 			}
@@ -67,7 +68,7 @@ func verifyCommand() *cli.Command {
 			}
 			req := record.VerifyRequest{Record: body, Source: path, Signatures: sigs, Policy: pol, Files: files}
 			if bp := c.String("brief"); bp != "" {
-				if req.Brief, err = os.ReadFile(bp); err != nil {
+				if req.Brief, err = boundedio.ReadFile(bp, boundedio.MaxInput); err != nil {
 					return err
 				}
 				req.BriefSource = bp
@@ -84,7 +85,7 @@ func verifyCommand() *cli.Command {
 				v.Problems = append(v.Problems, err.Error())
 				setState = "not complete"
 			} else if req.Brief == nil && v.Decision != nil {
-				page, err := os.ReadFile(filepath.Join(dir, "report.html"))
+				page, err := boundedio.ReadFile(filepath.Join(dir, "report.html"), boundedio.MaxInput)
 				if err == nil {
 					err = record.CheckBrief(page, filepath.Join(dir, "report.html"), body)
 				}
@@ -199,7 +200,7 @@ func printVerificationJSON(w io.Writer, path string, v *record.Verification, set
 	if v.Decision != nil {
 		out.Verdict, out.Policy = string(v.Decision.Verdict), v.Decision.Policy
 	}
-	if b, err := os.ReadFile(path); err == nil {
+	if b, err := boundedio.ReadFile(path, boundedio.MaxInput); err == nil {
 		out.RecordSHA256 = record.SHA256Hex(b)
 	}
 	for _, in := range v.Inputs {

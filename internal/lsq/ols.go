@@ -52,11 +52,8 @@ func OLS(a *mat.Dense, b []float64, intercept bool) (OLSResult, error) {
 	qr.Factorize(a)
 	var r mat.Dense
 	qr.RTo(&r)
-	tol := rankTol(m, n)
-	for j := 0; j < n; j++ {
-		if math.Abs(r.At(j, j)) <= tol*mat.Norm(a.ColView(j), 2) {
-			return OLSResult{}, fmt.Errorf("%w: column %d is a combination of the columns before it", ErrRankDeficient, j)
-		}
+	if j := firstDependent(&r, a); j >= 0 {
+		return OLSResult{}, fmt.Errorf("%w: column %d is a combination of the columns before it", ErrRankDeficient, j)
 	}
 
 	var coef mat.VecDense

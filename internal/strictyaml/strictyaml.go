@@ -13,12 +13,14 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"os"
 	"reflect"
 	"regexp"
 	"strings"
+	"unicode/utf8"
 
 	"go.yaml.in/yaml/v3"
+
+	"sluice/internal/boundedio"
 )
 
 // Error is a problem at a position of a YAML file.
@@ -48,7 +50,7 @@ func (e *Error) Error() string {
 
 // ReadFile decodes the YAML file at path into dst (a pointer to a struct).
 func ReadFile(path string, dst any) error {
-	data, err := os.ReadFile(path)
+	data, err := boundedio.ReadFile(path, boundedio.MaxInput)
 	if err != nil {
 		return err
 	}
@@ -60,7 +62,7 @@ func ReadFile(path string, dst any) error {
 func Decode(data []byte, source string, dst any) error {
 	var root yaml.Node
 	if err := yaml.Unmarshal(data, &root); err != nil {
-		return convert(source, err)
+		return locate(convert(source, err), data)
 	}
 	if root.Kind == 0 {
 		return &Error{File: source, Msg: "file is empty"}
@@ -71,7 +73,7 @@ func Decode(data []byte, source string, dst any) error {
 	dec := yaml.NewDecoder(bytes.NewReader(data))
 	dec.KnownFields(true)
 	if err := dec.Decode(dst); err != nil && !errors.Is(err, io.EOF) {
-		return convert(source, err)
+		return locate(convert(source, err), data)
 	}
 	return nil
 }
@@ -92,6 +94,63 @@ func convert(source string, err error) error {
 		return &Error{File: source, Line: line, Msg: m[2]}
 	}
 	return &Error{File: source, Msg: msg}
+}
+
+var anchorRE = regexp.MustCompile(`unknown anchor '([^']*)' referenced`)
+
+// locate gives a line (and where it can, a column) to an error yaml.v3
+// reported without one, so every YAML error names file:line. yaml.v3 leaves
+// the line out when the problem is on the first line (its marks count from
+// 0 and "line 0" is not printed: decode.go, parser.fail), and for problems
+// its reader finds before scanning (control characters, bad UTF-8) and
+// anchors it cannot resolve; those two are found here in the text.
+func locate(err error, data []byte) error {
+	var e *Error
+	if !errors.As(err, &e) {
+		return err
+	}
+	if strings.Contains(e.Msg, "tab character") {
+		// yaml.v3 names the line where the enclosing block started; the
+		// tab itself is the first one in a line's indentation.
+		for i, ln := range strings.SplitAfter(string(data), "\n") {
+			indent := ln[:len(ln)-len(strings.TrimLeft(ln, " \t"))]
+			if j := strings.IndexByte(indent, '\t'); j >= 0 {
+				e.Line, e.Column = i+1, j+1
+				return e
+			}
+		}
+	}
+	if e.Line > 0 {
+		return err
+	}
+	at := -1
+	switch {
+	case strings.Contains(e.Msg, "control characters"):
+		at = bytes.IndexFunc(data, func(r rune) bool { return r < 0x20 && r != '\t' && r != '\n' && r != '\r' || r == 0x7f })
+	case strings.Contains(e.Msg, "UTF-8"):
+		at = bytes.IndexRune(data, utf8.RuneError)
+		if at < 0 {
+			for i := 0; i < len(data); {
+				r, n := utf8.DecodeRune(data[i:])
+				if r == utf8.RuneError && n <= 1 {
+					at = i
+					break
+				}
+				i += n
+			}
+		}
+	default:
+		if m := anchorRE.FindStringSubmatch(e.Msg); m != nil {
+			at = bytes.Index(data, []byte("*"+m[1]))
+		}
+	}
+	if at < 0 {
+		e.Line = 1
+		return e
+	}
+	e.Line = 1 + bytes.Count(data[:at], []byte("\n"))
+	e.Column = 1 + at - (bytes.LastIndexByte(data[:at], '\n') + 1)
+	return e
 }
 
 // walk checks node against type t, reporting the first unknown key with its
@@ -132,6 +191,14 @@ func walk(source string, node *yaml.Node, t reflect.Type, path string) error {
 				}
 			}
 		}
+	case yaml.ScalarNode:
+		// .nan and .inf decode into a float field without complaint, and
+		// every later comparison with them is false: no input of sluice
+		// means a non-finite number, so they are refused where written.
+		if (t.Kind() == reflect.Float64 || t.Kind() == reflect.Float32) && node.Tag == "!!float" && isNonFinite(node.Value) {
+			return &Error{File: source, Line: node.Line, Column: node.Column, Path: path,
+				Msg: fmt.Sprintf("%s is not a finite number", node.Value)}
+		}
 	case yaml.SequenceNode:
 		if t.Kind() == reflect.Slice || t.Kind() == reflect.Array {
 			for i, c := range node.Content {
@@ -142,6 +209,17 @@ func walk(source string, node *yaml.Node, t reflect.Type, path string) error {
 		}
 	}
 	return nil
+}
+
+// isNonFinite reports whether a YAML 1.2 float scalar spells NaN or an
+// infinity (.nan, .NaN, .NAN, .inf, -.Inf, +.INF, ...; YAML 1.2 section
+// 10.2.1.4).
+func isNonFinite(v string) bool {
+	switch strings.ToLower(strings.TrimLeft(v, "+-")) {
+	case ".nan", ".inf":
+		return true
+	}
+	return false
 }
 
 func join(path, key string) string {

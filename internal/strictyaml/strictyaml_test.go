@@ -11,6 +11,7 @@ type channel struct {
 }
 
 type doc struct {
+	Period   float64            `yaml:"period_weeks"`
 	Horizon  int                `yaml:"horizon_weeks"`
 	Channels map[string]channel `yaml:"channels"`
 	Groups   []struct {
@@ -30,6 +31,16 @@ func TestDecode(t *testing.T) {
 		{"duplicate", "horizon_weeks: 1\nhorizon_weeks: 2\n", "plan.yaml:2:1"},
 		{"syntax", "channels: [\n", "plan.yaml:"},
 		{"empty", "", "plan.yaml: file is empty"},
+		// Non-finite floats (YAML 1.2 section 10.2.1.4 spellings) are refused at their line.
+		{"nan", "horizon_weeks: 13\nperiod_weeks: .nan\n", "plan.yaml:2:15: period_weeks: .nan is not a finite number"},
+		{"inf", "period_weeks: -.Inf\n", "plan.yaml:1:15: period_weeks: -.Inf is not a finite number"},
+		{"quoted nan is a string", "period_weeks: '.nan'\n", "plan.yaml:1: cannot unmarshal"},
+		// Errors yaml.v3 reports without a line get one.
+		{"first-line syntax", "a: b: c\n", "plan.yaml:1: mapping values"},
+		// yaml.v3 names line 2 here (where the block began); the tab is on line 3.
+		{"tab in indentation", "horizon_weeks: 1\nperiod_weeks: 2\n\tchannels: {}\n", "plan.yaml:3:1: found a tab character"},
+		{"control character", "horizon_weeks: 1\nperiod_weeks: \x01\n", "plan.yaml:2:15: control characters"},
+		{"unknown anchor", "horizon_weeks: 1\nperiod_weeks: *p\n", "plan.yaml:2:15: unknown anchor"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
