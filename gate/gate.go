@@ -152,6 +152,17 @@ type Decision struct {
 	// that the plan as a whole passes (1 when no scaling was needed).
 	PlanScale float64 `json:"plan_scale"`
 	Search    Search  `json:"search"`
+	// Draws says which draws judged the moves; the caller fills it (the
+	// gate judges whatever Review.Response holds).
+	Draws DrawUse `json:"draws_judged"`
+}
+
+// DrawUse records how the draws were shared between the allocator and the
+// gate, so the record shows the optimiser's curse was avoided.
+type DrawUse struct {
+	Allocated int    `json:"allocator"` // draws the allocator optimised over
+	Judged    int    `json:"gate"`      // draws the gate judged
+	Rule      string `json:"rule"`
 }
 
 // Run reviews r. Errors report problems with the review's data; slices of

@@ -13,6 +13,7 @@ import (
 	"fmt"
 	"slices"
 
+	"sluice/decision"
 	"sluice/gate"
 	"sluice/internal/sample"
 	"sluice/model"
@@ -29,6 +30,9 @@ type Problem struct {
 	Design   *model.Design // built from Panel with the usual spec
 	Plan     *optimize.Plan
 	Policies []*policies.Policy
+	// Lifts are the user's lift tests; each world gets its own, simulated
+	// from its truth with the same windows and standard errors.
+	Lifts []validation.LiftTest
 }
 
 // Settings say how many worlds and how large each world's decision is. The
@@ -241,34 +245,20 @@ func Merge(seed uint64, sizes Sizes, policies []string, worlds int, parts [][]Ou
 	return res, nil
 }
 
-// decideWorld runs the decision process on w's panel and scores each plan
-// under w's truth.
+// decideWorld runs the decision pipeline (package decision, exactly what
+// propose runs) on w's panel and scores each plan under w's truth.
 func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome, error) {
 	dw, err := model.NewDesign(w.Panel, p.Design.Spec)
 	if err != nil {
+		return nil, &decision.Error{Stage: decision.StageInput, Err: err}
+	}
+	in := decision.Input{Panel: w.Panel, Design: dw, Plan: p.Plan, Lifts: worldLifts(dw, w, p.Lifts)}
+	prep, err := decision.Prepare(ctx, in, decision.Settings{Seed: w.Seed, Workers: s.Workers,
+		BootstrapDraws: s.WorldDraws, Replicates: s.Replicates})
+	if err != nil {
 		return nil, err
 	}
-	y := w.Panel.KPI
-	fit, err := dw.Fit(y, model.FitSettings{Seed: w.Seed, Workers: s.Workers})
-	if err != nil {
-		return nil, fmt.Errorf("fit: %w", err)
-	}
-	bs := &uncertainty.Bootstrap{Design: dw, Y: y, Draws: s.WorldDraws, Seed: w.Seed, Workers: s.Workers, Full: fit}
-	bd, err := bs.Run(ctx)
-	if err != nil {
-		return nil, fmt.Errorf("bootstrap: %w", err)
-	}
-	draws := bd.Params()
-	if len(draws) == 0 {
-		return nil, errors.New("bootstrap: every refit failed")
-	}
-	val, err := validation.Run(validation.Problem{Panel: w.Panel, Design: dw, Fit: fit,
-		Draws: &validation.Draws{Params: draws, Failed: bd.Failed()}},
-		validation.DefaultThresholds(), validation.Settings{Seed: w.Seed, Workers: s.Workers,
-			Replicates: s.Replicates, ValuePerKPI: p.Plan.ValuePerKPI})
-	if err != nil {
-		return nil, fmt.Errorf("validation: %w", err)
-	}
+	val := prep.Validation
 	out := &Outcome{Index: w.Index, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Checks: len(val.Evidence.Checks)}
 	for _, c := range val.Evidence.Checks {
 		if c.Status == validation.Fail {
@@ -278,31 +268,17 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 
 	names := dw.Spec.ChannelNames()
 	h := p.Plan.HorizonWeeks
-	econ := optimize.Economics{Horizon: h, Margin: p.Plan.Margin, ValuePerKPI: p.Plan.ValuePerKPI}
-	solve := func(resp, point optimize.Response) (*optimize.Result, []float64, error) {
-		prob, err := p.Plan.Resolve(names, dw.CurrentSpend())
-		if err != nil {
-			return nil, nil, err
-		}
-		prob.Response, prob.Point = resp, point
-		r, err := optimize.Solve(*prob, &optimize.Settings{Seed: w.Seed, Workers: s.Workers})
-		if err != nil {
-			return nil, nil, err
-		}
-		cur := make([]float64, len(prob.Constraints.Channels))
-		for k, l := range prob.Constraints.Channels {
-			cur[k] = l.Current
-		}
-		return r, cur, nil
-	}
-	raw, current, err := solve(dw.NewCurves(draws, h), dw.NewCurves([]model.Params{fit.Params}, h))
-	if err != nil {
-		return nil, fmt.Errorf("allocation: %w", err)
-	}
+	econ := prep.Economics
+	current := prep.Current
 	truth := dw.NewCurves([]model.Params{w.Truth}, h)
-	oracle, _, err := solve(truth, nil)
+	prob, err := p.Plan.Resolve(names, dw.CurrentSpend())
 	if err != nil {
-		return nil, fmt.Errorf("oracle allocation: %w", err)
+		return nil, &decision.Error{Stage: decision.StageAllocation, Err: err}
+	}
+	prob.Response = truth
+	oracle, err := optimize.Solve(*prob, &optimize.Settings{Seed: w.Seed, Workers: s.Workers})
+	if err != nil {
+		return nil, &decision.Error{Stage: "oracle", Err: err}
 	}
 	og := econ.Gains(nil, truth, oracle.Proposed, current)[0]
 	score := func(plan []float64) Score {
@@ -314,21 +290,13 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 		return sc
 	}
 	out.Oracle = score(oracle.Proposed)
-	out.Raw = score(raw.Proposed)
-
-	low, high := dw.Support()
-	support := make([]gate.SupportRange, len(low))
-	for k := range low {
-		support[k] = gate.SupportRange{Low: low[k], High: high[k]}
-	}
-	curves := dw.NewCurves(draws, h)
+	out.Raw = score(prep.Proposed)
 	for _, pol := range p.Policies {
-		gd, err := gate.Run(gate.Review{Channels: names, Current: current, Proposed: raw.Proposed,
-			Response: curves, Economics: econ, Support: support, Evidence: val.Evidence, Policy: pol},
-			gate.Settings{Workers: s.Workers})
+		dec, err := prep.Judge(pol, nil)
 		if err != nil {
-			return nil, fmt.Errorf("gate (%s): %w", pol.Name, err)
+			return nil, fmt.Errorf("%s: %w", pol.Name, err)
 		}
+		gd := dec.Gate
 		sc := score(gd.ApprovedPlan)
 		sc.Verdict = gd.Verdict
 		for _, cu := range gd.Checks {
@@ -339,6 +307,24 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 		out.Policies = append(out.Policies, sc)
 	}
 	return out, nil
+}
+
+// worldLifts simulates the user's lift tests in world w: the same channels,
+// windows and standard errors, the incremental KPI the world's truth gives
+// over the window plus normal noise of the test's standard error (one
+// stream per world).
+func worldLifts(d *model.Design, w *World, lifts []validation.LiftTest) []validation.LiftTest {
+	if len(lifts) == 0 {
+		return nil
+	}
+	rng := uncertainty.Stream(w.Seed^0x11f7, 0)
+	out := make([]validation.LiftTest, len(lifts))
+	for i, l := range lifts {
+		l.Incremental = w.LiftTruth(d, l.ChannelIndex, l.From, l.To) + l.StdError*rng.NormFloat64()
+		l.Source = "simulated from the world's truth"
+		out[i] = l
+	}
+	return out
 }
 
 func (r *Result) summarize(policies []string) {

@@ -51,6 +51,28 @@ type World struct {
 	// confounder is not caused by spend, so it is not in the truth.
 	Truth model.Params
 	Panel *model.Panel
+
+	hist     model.Params // the parameters the history was drawn from, before β's changes
+	affected int          // index of the affected channel
+	mult     []float64    // per week of history, the factor on its β
+}
+
+// LiftTruth is what a lift test of channel k over weeks [from, to] of the
+// history measures in this world: the model's lift effect with the
+// parameters the history was drawn from, β scaled by the world's mean
+// factor over the window for the affected channel (exact when the factor is
+// constant there; an approximation inside a drift or season). A
+// confounder is not caused by spend and is not measured by an experiment.
+func (w *World) LiftTruth(d *model.Design, k, from, to int) float64 {
+	cp := w.hist.Channels[k]
+	if k == w.affected && w.mult != nil {
+		var f float64
+		for t := from; t <= to; t++ {
+			f += w.mult[t]
+		}
+		cp.Beta *= f / float64(to-from+1)
+	}
+	return d.LiftEffect(k, cp, from, to)
 }
 
 // base is what every world starts from: the user's panel and design, the
@@ -165,6 +187,7 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 		y[t] = math.Max(0, y[t]+cp.Beta*mult[t]*m[t]+extra[t]+noise[t])
 	}
 	w.Truth = withBeta(p, k, cp.Beta*end)
+	w.hist, w.affected, w.mult = p.Clone(), k, mult
 	panel := *b.panel
 	panel.Source = b.panel.Source + " (rehearsal world)"
 	panel.KPI = y

@@ -21,6 +21,7 @@ import (
 	"sluice/rehearsal"
 	"sluice/report"
 	"sluice/uncertainty"
+	"sluice/validation"
 )
 
 func rehearseCommand() *cli.Command {
@@ -37,6 +38,7 @@ func rehearseCommand() *cli.Command {
 		Flags: append(modelFlags(),
 			&cli.StringFlag{Name: "plan", Usage: "plan YAML: horizon, budget, per-channel bounds, groups, objective, margin"},
 			&cli.StringSliceFlag{Name: "policy", Usage: "policy to rehearse: a preset name (" + strings.Join(policies.Names(), ", ") + ") or a YAML file; repeatable (default standard)"},
+			&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV of the data: each world gets the same tests (windows, standard errors) simulated from its truth"},
 			&cli.IntFlag{Name: "worlds", Value: 200, Usage: "simulated worlds"},
 			&cli.Float64Flag{Name: "misspecified", Value: 0.5, Usage: "share of worlds that break an assumption of the model"},
 			&cli.StringFlag{Name: "kinds", Value: strings.Join(kinds, ","), Usage: "comma-separated kinds of misspecified world to draw from"},
@@ -111,7 +113,13 @@ func rehearseCommand() *cli.Command {
 					}
 				}
 			}
-			r, err := rehearsal.Run(ctx, rehearsal.Problem{Panel: in.Panel, Design: in.Design, Plan: plan, Policies: pols}, set)
+			prob := rehearsal.Problem{Panel: in.Panel, Design: in.Design, Plan: plan, Policies: pols}
+			if path := o.String("lifts"); path != "" {
+				if prob.Lifts, err = validation.LoadLifts(path, in.Panel); err != nil {
+					return err
+				}
+			}
+			r, err := rehearsal.Run(ctx, prob, set)
 			if err != nil {
 				return err
 			}
