@@ -69,6 +69,22 @@ type Sizes struct {
 	WorldDraws int `json:"world_draws"`
 	Replicates int `json:"validation_replicates"`
 	Horizon    int `json:"horizon_weeks"`
+	// Shrunk names each size smaller in a world than in propose's own
+	// decision (package decision's defaults), so a reader knows the
+	// rehearsal's decisions are noisier than the real one.
+	Shrunk []string `json:"shrunk,omitempty"`
+}
+
+// shrunk says which sizes are below propose's.
+func (z Sizes) shrunk() []string {
+	var out []string
+	if z.WorldDraws < decision.DefaultBootstrapDraws {
+		out = append(out, fmt.Sprintf("bootstrap draws %d per world (propose: %d)", z.WorldDraws, decision.DefaultBootstrapDraws))
+	}
+	if z.Replicates < decision.DefaultReplicates {
+		out = append(out, fmt.Sprintf("recovery panels %d per world (propose: %d)", z.Replicates, decision.DefaultReplicates))
+	}
+	return out
 }
 
 func (s Settings) withDefaults() Settings {
@@ -115,7 +131,26 @@ type Outcome struct {
 	Raw          Score    `json:"raw"`           // the allocator's proposal
 	Policies     []Score  `json:"policies"`      // each policy's approved plan, in Problem order
 	Err          string   `json:"error,omitempty"`
+	// Stage is where a world that could not be decided failed (input, fit,
+	// bootstrap, validation, allocation, oracle, gate); "" when decided.
+	Stage string `json:"failed_stage,omitempty"`
 }
+
+// Failure counts the worlds that failed at one stage, with their distinct
+// reasons (the first few, each with its worlds).
+type Failure struct {
+	Stage   string   `json:"stage"`
+	Worlds  int      `json:"worlds"`
+	Reasons []string `json:"reasons"`
+}
+
+// maxReasons caps the distinct reasons kept per stage.
+const maxReasons = 5
+
+// LoudShare is the share of failed worlds above which a rehearsal's
+// figures are said to be in doubt: they cover only the worlds that were
+// decided, which may not be like the others (common practice, no source).
+const LoudShare = 0.10
 
 // Summary sums up one way of deciding over the worlds.
 type Summary struct {
@@ -145,6 +180,54 @@ type Result struct {
 	// FailedShare is the mean share of failed checks per world kind.
 	FailedShare map[Kind]float64 `json:"failed_check_share"`
 	Errors      int              `json:"errors"` // worlds whose decision could not run, left out
+	Decided     int              `json:"decided"`
+	// Failures are the worlds that could not be decided, by stage; every
+	// one is here, none is dropped silently.
+	Failures []Failure `json:"failures"`
+}
+
+// FailedShareOfWorlds is the share of worlds that could not be decided.
+func (r *Result) FailedShareOfWorlds() float64 {
+	if n := r.Decided + r.Errors; n > 0 {
+		return float64(r.Errors) / float64(n)
+	}
+	return 0
+}
+
+// Loud says whether so many worlds failed (more than LoudShare) that the
+// figures must be read with that warning.
+func (r *Result) Loud() bool { return r.FailedShareOfWorlds() > LoudShare }
+
+// WorldOf builds world i of the rehearsal (p, s) alone, exactly as Run
+// builds it: to rerun one world's decision outside the rehearsal.
+func WorldOf(ctx context.Context, p Problem, s Settings, i int) (*World, error) {
+	s = s.withDefaults()
+	b, err := newBase(ctx, p, s)
+	if err != nil {
+		return nil, err
+	}
+	return b.world(s.Seed, i, s.Misspecified, s.Kinds), nil
+}
+
+func newBase(ctx context.Context, p Problem, s Settings) (*base, error) {
+	bs := &uncertainty.Bootstrap{Design: p.Design, Y: p.Panel.KPI, Draws: s.BaseDraws, Seed: s.Seed, Workers: s.Workers}
+	d, err := bs.Run(ctx)
+	if err != nil {
+		return nil, fmt.Errorf("rehearsal: bootstrap of the data: %w", err)
+	}
+	full := d.Header.FullFit.Params
+	resid := make([]float64, p.Design.N)
+	for t, v := range p.Design.Predict(full) {
+		resid[t] = p.Panel.KPI[t] - v
+	}
+	b := &base{panel: p.Panel, design: p.Design, draws: d.Params(), resid: resid, block: d.Header.BlockLength, horiz: p.Plan.HorizonWeeks}
+	if s.truthFromFit {
+		b.draws = []model.Params{full}
+	}
+	if len(b.draws) == 0 {
+		return nil, errors.New("rehearsal: every refit of the data's bootstrap failed")
+	}
+	return b, nil
 }
 
 // Run rehearses p. Worlds run one after another; each uses Workers.
@@ -160,24 +243,12 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 	}
 	s = s.withDefaults()
 	h := p.Plan.HorizonWeeks
-	bs := &uncertainty.Bootstrap{Design: p.Design, Y: p.Panel.KPI, Draws: s.BaseDraws, Seed: s.Seed, Workers: s.Workers}
-	d, err := bs.Run(ctx)
+	b, err := newBase(ctx, p, s)
 	if err != nil {
-		return nil, fmt.Errorf("rehearsal: bootstrap of the data: %w", err)
-	}
-	full := d.Header.FullFit.Params
-	resid := make([]float64, p.Design.N)
-	for t, v := range p.Design.Predict(full) {
-		resid[t] = p.Panel.KPI[t] - v
-	}
-	b := &base{panel: p.Panel, design: p.Design, draws: d.Params(), resid: resid, block: d.Header.BlockLength, horiz: h}
-	if s.truthFromFit {
-		b.draws = []model.Params{full}
-	}
-	if len(b.draws) == 0 {
-		return nil, errors.New("rehearsal: every refit of the data's bootstrap failed")
+		return nil, err
 	}
 	res := &Result{Seed: s.Seed, Sizes: Sizes{BaseDraws: s.BaseDraws, WorldDraws: s.WorldDraws, Replicates: s.Replicates, Horizon: h}}
+	res.Sizes.Shrunk = res.Sizes.shrunk()
 	for i := range s.Worlds {
 		if err := ctx.Err(); err != nil {
 			return nil, err
@@ -194,7 +265,11 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 			return nil, ctx.Err()
 		}
 		if err != nil {
-			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Err: err.Error()}
+			st := string(decision.StageOf(err))
+			if st == "" {
+				st = "other"
+			}
+			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Err: err.Error(), Stage: st}
 		}
 		res.Worlds = append(res.Worlds, *out)
 		if s.Progress != nil {
@@ -334,11 +409,29 @@ func (r *Result) summarize(policies []string) {
 		r.Policies[j] = Summary{Name: name}
 	}
 	checks := map[Kind][2]float64{} // Σ failed share, worlds
+	r.Errors, r.Decided, r.Failures = 0, 0, []Failure{}
+	byStage := map[string]int{}
 	for _, o := range r.Worlds {
 		if o.Err != "" {
 			r.Errors++
+			st := o.Stage
+			if st == "" {
+				st = "other"
+			}
+			j, ok := byStage[st]
+			if !ok {
+				j = len(r.Failures)
+				byStage[st] = j
+				r.Failures = append(r.Failures, Failure{Stage: st})
+			}
+			f := &r.Failures[j]
+			f.Worlds++
+			if len(f.Reasons) < maxReasons {
+				f.Reasons = append(f.Reasons, fmt.Sprintf("world %d (%s): %s", o.Index, o.Kind, o.Err))
+			}
 			continue
 		}
+		r.Decided++
 		r.Raw.add(o.Kind, o.Raw, o.Oracle.TrueGain)
 		for j := range r.Policies {
 			r.Policies[j].add(o.Kind, o.Policies[j], o.Oracle.TrueGain)
@@ -350,6 +443,7 @@ func (r *Result) summarize(policies []string) {
 		c[1]++
 		checks[o.Kind] = c
 	}
+	slices.SortFunc(r.Failures, func(a, b Failure) int { return b.Worlds - a.Worlds })
 	r.Raw.finish()
 	for j := range r.Policies {
 		r.Policies[j].finish()

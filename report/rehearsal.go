@@ -34,6 +34,9 @@ func RenderRehearsal(w io.Writer, r *rehearsal.Result) error {
 	if r == nil {
 		return ErrNoRehearsal
 	}
+	if r.Decided == 0 {
+		return fmt.Errorf("report: no world of the rehearsal was decided (%d failed); a page would summarize nothing", r.Errors)
+	}
 	v, err := newRehearsalView(r)
 	if err != nil {
 		return err
@@ -67,6 +70,8 @@ type rehearsalView struct {
 	Deciders              []string // column groups of the kind table
 	Kinds                 []kindRow
 	Errors                string
+	Failures              []string // per stage: count and the first reasons
+	Loud                  string   // a warning when more than a tenth of the worlds failed
 }
 
 type summaryRow struct {
@@ -136,8 +141,15 @@ func newRehearsalView(r *rehearsal.Result) (*rehearsalView, error) {
 		plural(n, "world", "worlds"), plural(r.Sizes.BaseDraws, "bootstrap draw", "bootstrap draws"), broke,
 		plural(r.Sizes.WorldDraws, "draw", "draws"), plural(r.Sizes.Replicates, "recovery panel", "recovery panels"), weeks, r.Seed)
 	if r.Errors > 0 {
-		v.Errors = fmt.Sprintf("%s could not be decided (fit, bootstrap or allocation failed) and are left out of every figure.",
-			plural(r.Errors, "world", "worlds"))
+		v.Errors = fmt.Sprintf("%s of %d could not be decided and are left out of every figure; by stage:",
+			plural(r.Errors, "world", "worlds"), r.Errors+r.Decided)
+		for _, f := range r.Failures {
+			v.Failures = append(v.Failures, fmt.Sprintf("%s: %s — %s", f.Stage, plural(f.Worlds, "world", "worlds"), strings.Join(f.Reasons, "; ")))
+		}
+	}
+	if r.Loud() {
+		v.Loud = fmt.Sprintf("%s of the worlds could not be decided (more than %s): the figures below cover only the worlds that could, which may not be like the others.",
+			pct(r.FailedShareOfWorlds()), pct(rehearsal.LoudShare))
 	}
 	for _, d := range ds {
 		s := d.sum

@@ -212,3 +212,17 @@ func byID(t testing.TB, doc *html.Node, id string) *html.Node {
 	}
 	return es[0]
 }
+
+// TestRehearsalPageRefusesZeroWorlds: a rehearsal where no world was
+// decided has nothing to summarize; the page is refused, not drawn over
+// zero worlds.
+func TestRehearsalPageRefusesZeroWorlds(t *testing.T) {
+	r := &rehearsal.Result{Errors: 3, Worlds: []rehearsal.Outcome{{Err: "fit: x", Stage: "fit"}}}
+	var b strings.Builder
+	if err := report.RenderRehearsal(&b, r); err == nil || !strings.Contains(err.Error(), "no world") {
+		t.Fatalf("err %v; want a refusal naming that no world was decided", err)
+	}
+	if b.Len() != 0 {
+		t.Errorf("wrote %d bytes of a page over zero worlds", b.Len())
+	}
+}

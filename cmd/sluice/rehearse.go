@@ -125,7 +125,7 @@ func rehearseCommand() *cli.Command {
 			}
 			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), WorldsTotal: set.Worlds,
 				Shard: shard.String(), Misspecified: set.Misspecified, Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw,
-				FailedShare: r.FailedShare, Errors: r.Errors}
+				FailedShare: r.FailedShare, Errors: r.Errors, Decided: r.Decided, Failures: r.Failures}
 			return emitRehearsal(c, o, out, r, time.Since(start))
 		},
 	}
@@ -134,6 +134,11 @@ func rehearseCommand() *cli.Command {
 // emitRehearsal writes DIR/rehearsal.json and DIR/rehearsal.html (with
 // --out) and prints the table or, with --json, the summary.
 func emitRehearsal(c *cli.Context, o *opts, out rehearseOutput, r *rehearsal.Result, took time.Duration) error {
+	if r.Decided == 0 {
+		printFailures(c.App.ErrWriter, out)
+		return withHint(fmt.Errorf("no world was decided: all %d failed; nothing was written", r.Errors),
+			"the reasons by stage are above; a world fails where propose on the same data would, so try sluice propose on it")
+	}
 	var wrote []string
 	if dir := o.String("out"); dir != "" {
 		if err := os.MkdirAll(dir, 0o755); err != nil {
@@ -217,6 +222,7 @@ func rehearseMergeCommand() *cli.Command {
 			out := first.rehearseOutput
 			out.Worlds, out.Shard = len(r.Worlds), "1/1"
 			out.Policies, out.Raw, out.FailedShare, out.Errors = r.Policies, r.Raw, r.FailedShare, r.Errors
+			out.Decided, out.Failures = r.Decided, r.Failures
 			return emitRehearsal(c, o, out, r, 0)
 		},
 	}
@@ -229,7 +235,7 @@ func sameRehearsal(a, b rehearseOutput) string {
 		return fmt.Sprintf("seed %d, not %d", b.Seed, a.Seed)
 	case a.WorldsTotal != b.WorldsTotal:
 		return fmt.Sprintf("%d worlds in all, not %d", b.WorldsTotal, a.WorldsTotal)
-	case a.Sizes != b.Sizes || a.Misspecified != b.Misspecified || fmt.Sprint(a.Kinds) != fmt.Sprint(b.Kinds):
+	case fmt.Sprint(a.Sizes) != fmt.Sprint(b.Sizes) || a.Misspecified != b.Misspecified || fmt.Sprint(a.Kinds) != fmt.Sprint(b.Kinds):
 		return "other sizes, misspecified share or kinds"
 	case len(a.Policies) != len(b.Policies):
 		return "other policies"
@@ -257,6 +263,8 @@ type rehearseOutput struct {
 	Raw          rehearsal.Summary          `json:"raw"`
 	FailedShare  map[rehearsal.Kind]float64 `json:"failed_check_share"`
 	Errors       int                        `json:"worlds_failed"`
+	Decided      int                        `json:"worlds_decided"`
+	Failures     []rehearsal.Failure        `json:"failures"`
 }
 
 func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
@@ -264,6 +272,12 @@ func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
 		r.Worlds, r.Seed, 100*r.Misspecified, r.Sizes.Horizon)
 	fmt.Fprintf(w, "sizes: %d bootstrap draws of the data for the worlds; per world %d draws and %d recovery panels; %.1f s per world\n\n",
 		r.Sizes.BaseDraws, r.Sizes.WorldDraws, r.Sizes.Replicates, took.Seconds()/float64(max(r.Worlds, 1)))
+	if len(r.Sizes.Shrunk) > 0 {
+		fmt.Fprintf(w, "smaller than propose's own decision: %s\n", strings.Join(r.Sizes.Shrunk, "; "))
+	}
+	if r.Errors > 0 && float64(r.Errors) > rehearsal.LoudShare*float64(r.Errors+r.Decided) {
+		fmt.Fprintf(w, "WARNING: %d of %d worlds could not be decided (see below)\n", r.Errors, r.Errors+r.Decided)
+	}
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintln(tw, "decided by\tworlds\tP(loss)\tmean gain\t5% gain\tof oracle\trefused\t")
 	row := func(name string, s rehearsal.Summary) {
@@ -295,10 +309,28 @@ func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
 		fmt.Fprintln(tw)
 	}
 	tw.Flush()
-	if r.Errors > 0 {
-		fmt.Fprintf(w, "\n%d worlds could not be decided (fit, bootstrap or allocation failed) and are left out\n", r.Errors)
-	}
+	printFailures(w, r)
 	fmt.Fprintln(w, "\nthe worlds are simulated from this model's family and a few named departures from it; a rehearsal shows how the policy behaves there, not in the real market")
+}
+
+// printFailures says how many worlds failed, by stage with the first
+// reasons, and loudly when more than a tenth did.
+func printFailures(w io.Writer, r rehearseOutput) {
+	if r.Errors == 0 {
+		return
+	}
+	n := r.Errors + r.Decided
+	if float64(r.Errors) > rehearsal.LoudShare*float64(n) {
+		fmt.Fprintf(w, "\nWARNING: %d of %d worlds (%.0f%%) could not be decided; the figures cover only the %d that could, which may not be like the others\n",
+			r.Errors, n, 100*float64(r.Errors)/float64(n), r.Decided)
+	}
+	fmt.Fprintf(w, "\n%d of %d worlds could not be decided and are left out of every figure; by stage:\n", r.Errors, n)
+	for _, f := range r.Failures {
+		fmt.Fprintf(w, "  %s: %d\n", f.Stage, f.Worlds)
+		for _, why := range f.Reasons {
+			fmt.Fprintf(w, "    %s\n", why)
+		}
+	}
 }
 
 func lossShare(s *rehearsal.Summary) string {
