@@ -101,9 +101,9 @@ type Outcome struct {
 	// positions of the successful replicates); Allocated those the
 	// allocator optimised over (the even positions).
 	Judged, Allocated []model.Params
-	Curves          *model.Curves // of Judge
-	Economics       optimize.Economics
-	Gains           []float64 // of the approved plan, per judging draw
+	Curves            *model.Curves // of Judge
+	Economics         optimize.Economics
+	Gains             []float64 // of the approved plan, per judging draw
 }
 
 // Stage names where a decision failed, for reports that count failures.
@@ -343,4 +343,3 @@ func forecastBand(in Input, seed uint64, point model.Params, draws []model.Param
 	fc := validation.NewForecast(d, in.Panel.Weeks[0], point, planMap, band, in.MadeWith)
 	return fc, [3]float64{t[0], t[1], t[2]}
 }
-
