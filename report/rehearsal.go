@@ -34,8 +34,14 @@ func RenderRehearsal(w io.Writer, r *rehearsal.Result) error {
 	if r == nil {
 		return ErrNoRehearsal
 	}
-	if r.Decided == 0 {
-		return fmt.Errorf("report: no world of the rehearsal was decided (%d failed); a page would summarize nothing", r.Errors)
+	decided := 0
+	for _, o := range r.Worlds {
+		if o.Err == "" {
+			decided++
+		}
+	}
+	if decided == 0 {
+		return fmt.Errorf("report: no world of the rehearsal was decided (%d failed); a page would summarize nothing", len(r.Worlds))
 	}
 	v, err := newRehearsalView(r)
 	if err != nil {

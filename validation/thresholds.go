@@ -114,6 +114,32 @@ type Thresholds struct {
 	// ReconcileBias: |mean(actual − re-forecast)| / mean actual.
 	// Default {0.05, 0.10}.
 	ReconcileBias Limit `json:"reconcile_bias" yaml:"reconcile_bias"`
+
+	set map[string]bool // keys given to Set: those checks keep their raw grading
+}
+
+// rawKeys maps a tested check's name to the threshold key that, when Set,
+// makes it graded by its raw threshold instead of its false-alarm rate.
+var rawKeys = map[string]string{
+	"accuracy/holdout_wmape":         "holdout_wmape",
+	"accuracy/holdout_mase":          "holdout_mase",
+	"accuracy/holdout_bias":          "holdout_bias",
+	"accuracy/backtest_median_wmape": "backtest_median_wmape",
+	"accuracy/backtest_worst_wmape":  "backtest_worst_wmape",
+	"stability/quarter_out":          "quarter_out",
+	"stability/decay_bounds":         "decay_bounds",
+	"stability/drift":                "drift_z",
+	"lift/agreement":                 "lift_z",
+	"reconciliation/coverage":        "coverage",
+}
+
+// keepRaw marks the checks whose raw threshold was Set.
+func (th Thresholds) keepRaw(checks []Check) {
+	for i := range checks {
+		if key, ok := rawKeys[checks[i].Name]; ok && th.set[key] {
+			checks[i].RawThreshold = true
+		}
+	}
 }
 
 // DefaultThresholds returns the default limits documented on Thresholds.
@@ -146,7 +172,9 @@ func LimitNames() []string {
 	var out []string
 	t := reflect.TypeOf(Thresholds{})
 	for i := range t.NumField() {
-		out = append(out, strings.Split(t.Field(i).Tag.Get("json"), ",")[0])
+		if t.Field(i).IsExported() {
+			out = append(out, strings.Split(t.Field(i).Tag.Get("json"), ",")[0])
+		}
 	}
 	sort.Strings(out)
 	return out
@@ -158,7 +186,7 @@ func (th *Thresholds) Set(key string, values ...float64) error {
 	v := reflect.ValueOf(th).Elem()
 	t := v.Type()
 	for i := range t.NumField() {
-		if strings.Split(t.Field(i).Tag.Get("json"), ",")[0] != key {
+		if !t.Field(i).IsExported() || strings.Split(t.Field(i).Tag.Get("json"), ",")[0] != key {
 			continue
 		}
 		for _, x := range values {
@@ -167,6 +195,10 @@ func (th *Thresholds) Set(key string, values ...float64) error {
 			}
 		}
 		f := v.Field(i)
+		if th.set == nil {
+			th.set = map[string]bool{}
+		}
+		th.set[key] = true
 		switch f.Interface().(type) {
 		case Limit:
 			if len(values) != 2 {
