@@ -214,7 +214,7 @@ func Run(r Review, s Settings) (*Decision, error) {
 	for k := range delta {
 		guarded = guarded || held[k] != delta[k]
 	}
-	proposalBreaks := breaches(proposedRisk, pol.Risk)
+	proposalBreaks := breaches(proposedRisk, limitsOf(r))
 
 	var approved []float64
 	refused := "" // why the decision is refused, for the moves
@@ -611,7 +611,7 @@ func downsize(ev *evaluator, r Review, d *Decision, delta, held []float64, caps 
 
 // riskReason says why channel k's step stops at st.tau.
 func riskReason(r Review, delta []float64, k int, st stepResult) string {
-	lim := r.Policy.Risk
+	lim := limitsOf(r)
 	h := r.Economics.Horizon
 	names := make([]string, len(st.others))
 	for i, j := range st.others {

@@ -44,6 +44,16 @@
 //	                           absent: none.
 //	risk.cvar_floor_share      the same as a share of the money moved over the
 //	                           horizon; absent: none; in [-1, 1].
+//	risk.downside_floor_budget_share, risk.cvar_floor_budget_share
+//	                           the floors as shares of the quarter's media
+//	                           budget (current weekly spend × horizon weeks):
+//	                           -0.005 = at the downside level (or on average
+//	                           over the CVaR tail) the move may lose at most
+//	                           0.5% of the quarter's media budget. This is the
+//	                           unit a finance partner sets; a floor as a share
+//	                           of the money moved shrinks with the move and
+//	                           refused small, clearly profitable moves. absent:
+//	                           none; in [-1, 1]. All floors given must hold.
 //	risk.min_expected_gain     smallest acceptable mean gain, money over the
 //	                           horizon; absent: none. Above zero it also rules
 //	                           out very small steps.

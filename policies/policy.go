@@ -48,28 +48,44 @@ type Risk struct {
 	CVaRLevel          float64  `yaml:"cvar_level"`
 	CVaRFloor          *float64 `yaml:"cvar_floor"`
 	CVaRFloorShare     *float64 `yaml:"cvar_floor_share"`
-	MinExpectedGain    *float64 `yaml:"min_expected_gain"`
+	// DownsideFloorBudget and CVaRFloorBudget are floors as shares of the
+	// quarter's media budget (current weekly spend × horizon weeks): the
+	// unit a finance partner sets ("at worst, lose half a percent of the
+	// quarter's media budget"), which does not shrink with the move as a
+	// share of the money moved does.
+	DownsideFloorBudget *float64 `yaml:"downside_floor_budget_share"`
+	CVaRFloorBudget     *float64 `yaml:"cvar_floor_budget_share"`
+	MinExpectedGain     *float64 `yaml:"min_expected_gain"`
+
+	// Budget is the quarter's media budget the budget shares apply to; the
+	// gate sets it for each review (not read from the policy file).
+	Budget float64 `yaml:"-"`
 }
 
 // DownsideFloorFor returns the binding floor for the downside quantile of a
 // move that moves moved money over the horizon (the higher of the two floors
 // when both are given), and false when the policy sets none.
 func (r Risk) DownsideFloorFor(moved float64) (float64, bool) {
-	return floorFor(r.DownsideFloor, r.DownsideFloorShare, moved)
+	return floorFor(r.DownsideFloor, r.DownsideFloorShare, r.DownsideFloorBudget, moved, r.Budget)
 }
 
 // CVaRFloorFor is DownsideFloorFor for the CVaR floor.
 func (r Risk) CVaRFloorFor(moved float64) (float64, bool) {
-	return floorFor(r.CVaRFloor, r.CVaRFloorShare, moved)
+	return floorFor(r.CVaRFloor, r.CVaRFloorShare, r.CVaRFloorBudget, moved, r.Budget)
 }
 
-func floorFor(abs, share *float64, moved float64) (float64, bool) {
+// floorFor is the highest (binding) of the floors given: absolute, as a
+// share of the money moved, as a share of the budget.
+func floorFor(abs, share, budgetShare *float64, moved, budget float64) (float64, bool) {
 	f, ok := math.Inf(-1), false
 	if abs != nil {
 		f, ok = *abs, true
 	}
 	if share != nil {
 		f, ok = max(f, *share*moved), true
+	}
+	if budgetShare != nil {
+		f, ok = max(f, *budgetShare*budget), true
 	}
 	return f, ok
 }
@@ -420,6 +436,14 @@ func (p *Policy) check() *problem {
 	}
 	if finite(r.CVaRLevel, "risk", "cvar_level") && !(r.CVaRLevel > 0 && r.CVaRLevel <= 0.5) {
 		bad(fmt.Sprintf("must be a tail share in (0, 0.5] (e.g. 0.05), got %v", r.CVaRLevel), "risk", "cvar_level")
+	}
+	for _, b := range []struct {
+		v   *float64
+		key string
+	}{{r.DownsideFloorBudget, "downside_floor_budget_share"}, {r.CVaRFloorBudget, "cvar_floor_budget_share"}} {
+		if optFinite(b.v, "risk", b.key) && b.v != nil && (*b.v < -1 || *b.v > 1) {
+			bad(fmt.Sprintf("must be a share of the quarter's media budget in [-1, 1] (-0.005 = lose at most 0.5%%), got %v", *b.v), "risk", b.key)
+		}
 	}
 	optFinite(r.CVaRFloor, "risk", "cvar_floor")
 	if optFinite(r.CVaRFloorShare, "risk", "cvar_floor_share") && r.CVaRFloorShare != nil &&

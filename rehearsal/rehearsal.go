@@ -12,6 +12,7 @@ import (
 	"errors"
 	"fmt"
 	"slices"
+	"strings"
 
 	"sluice/decision"
 	"sluice/gate"
@@ -127,10 +128,14 @@ type Outcome struct {
 	Seed         uint64   `json:"seed"` // of the world's decision (fit, bootstrap, validation, allocation)
 	Checks       int      `json:"checks"`
 	FailedChecks []string `json:"failed_checks"` // name/scope of each failed check
-	Oracle       Score    `json:"oracle"`        // the best plan under the truth, same constraints
-	Raw          Score    `json:"raw"`           // the allocator's proposal
-	Policies     []Score  `json:"policies"`      // each policy's approved plan, in Problem order
-	Err          string   `json:"error,omitempty"`
+	// Stated is, per tested check name, the false-alarm rate it was
+	// graded at (the sum over its channels of each check's rate, default
+	// rates); checks without a p-value are absent.
+	Stated   map[string]float64 `json:"stated_rates,omitempty"`
+	Oracle   Score              `json:"oracle"`   // the best plan under the truth, same constraints
+	Raw      Score              `json:"raw"`      // the allocator's proposal
+	Policies []Score            `json:"policies"` // each policy's approved plan, in Problem order
+	Err      string             `json:"error,omitempty"`
 	// Stage is where a world that could not be decided failed (input, fit,
 	// bootstrap, validation, allocation, oracle, gate); "" when decided.
 	Stage string `json:"failed_stage,omitempty"`
@@ -184,6 +189,26 @@ type Result struct {
 	// Failures are the worlds that could not be decided, by stage; every
 	// one is here, none is dropped silently.
 	Failures []Failure `json:"failures"`
+	// Checks are each check's realised false-alarm rate (well-specified
+	// worlds) and power (per misspecified kind), graded at the default
+	// false-alarm rates.
+	Checks []CheckRate `json:"checks"`
+}
+
+// CheckRate is how often one check (over all channels) failed.
+type CheckRate struct {
+	Name string `json:"name"`
+	// Stated is the mean rate it was graded at in well-specified worlds:
+	// what it should fire at there; 0 for a check without a p-value
+	// (precision measures and raw thresholds).
+	Stated float64 `json:"stated_rate"`
+	// FalseAlarm is the share of well-specified worlds where it failed for
+	// some channel; Worlds counts those worlds.
+	FalseAlarm float64 `json:"false_alarm_rate"`
+	Worlds     int     `json:"well_specified_worlds"`
+	// Power is, per misspecified kind, the share of its worlds where it
+	// failed for the affected channel (or globally, for a global check).
+	Power map[Kind]float64 `json:"power,omitempty"`
 }
 
 // FailedShareOfWorlds is the share of worlds that could not be decided.
@@ -339,6 +364,12 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 		if c.Status == validation.Fail {
 			out.FailedChecks = append(out.FailedChecks, c.Name+"/"+c.Scope)
 		}
+		if c.PValue != nil && !c.RawThreshold {
+			if out.Stated == nil {
+				out.Stated = map[string]float64{}
+			}
+			out.Stated[c.Name] += c.Rate
+		}
 	}
 
 	names := dw.Spec.ChannelNames()
@@ -448,6 +479,7 @@ func (r *Result) summarize(policies []string) {
 	for j := range r.Policies {
 		r.Policies[j].finish()
 	}
+	r.Checks = checkRates(r.Worlds)
 	r.FailedShare = map[Kind]float64{}
 	for k, c := range checks {
 		r.FailedShare[k] = c[0] / c[1]
@@ -499,4 +531,87 @@ func (s *Summary) finish() {
 	for _, sub := range s.ByWorldKind {
 		sub.finish()
 	}
+}
+
+// checkRates measures each check's realised false-alarm rate and power.
+func checkRates(worlds []Outcome) []CheckRate {
+	type acc struct {
+		stated       float64
+		well, fired  int
+		kindN, kindF map[Kind]int
+	}
+	m := map[string]*acc{}
+	get := func(name string) *acc {
+		a := m[name]
+		if a == nil {
+			a = &acc{kindN: map[Kind]int{}, kindF: map[Kind]int{}}
+			m[name] = a
+		}
+		return a
+	}
+	for _, o := range worlds {
+		if o.Err != "" {
+			continue
+		}
+		for name := range o.Stated {
+			get(name)
+		}
+		for _, f := range o.FailedChecks {
+			get(checkName(f))
+		}
+	}
+	for _, o := range worlds {
+		if o.Err != "" {
+			continue
+		}
+		fired := map[string]bool{}     // any channel
+		firedHere := map[string]bool{} // the affected channel, or global
+		for _, f := range o.FailedChecks {
+			name := checkName(f)
+			fired[name] = true
+			scope := f[len(name)+1:]
+			if scope == o.Channel || scope == validation.Global {
+				firedHere[name] = true
+			}
+		}
+		for name, a := range m {
+			if o.Kind == WellSpecified {
+				a.well++
+				a.stated += o.Stated[name]
+				if fired[name] {
+					a.fired++
+				}
+				continue
+			}
+			a.kindN[o.Kind]++
+			if firedHere[name] {
+				a.kindF[o.Kind]++
+			}
+		}
+	}
+	var out []CheckRate
+	for name, a := range m {
+		cr := CheckRate{Name: name, Worlds: a.well}
+		if a.well > 0 {
+			cr.Stated = a.stated / float64(a.well)
+			cr.FalseAlarm = float64(a.fired) / float64(a.well)
+		}
+		for k, n := range a.kindN {
+			if cr.Power == nil {
+				cr.Power = map[Kind]float64{}
+			}
+			cr.Power[k] = float64(a.kindF[k]) / float64(n)
+		}
+		out = append(out, cr)
+	}
+	slices.SortFunc(out, func(a, b CheckRate) int { return strings.Compare(a.Name, b.Name) })
+	return out
+}
+
+// checkName is the check's name in "name/scope" (names hold a slash too).
+func checkName(f string) string {
+	if i := strings.LastIndex(f, "/"); i > 0 {
+		return f[:i]
+	}
+	return f
 }

@@ -125,7 +125,7 @@ func rehearseCommand() *cli.Command {
 			}
 			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), WorldsTotal: set.Worlds,
 				Shard: shard.String(), Misspecified: set.Misspecified, Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw,
-				FailedShare: r.FailedShare, Errors: r.Errors, Decided: r.Decided, Failures: r.Failures}
+				FailedShare: r.FailedShare, Errors: r.Errors, Decided: r.Decided, Failures: r.Failures, Checks: r.Checks}
 			return emitRehearsal(c, o, out, r, time.Since(start))
 		},
 	}
@@ -222,7 +222,7 @@ func rehearseMergeCommand() *cli.Command {
 			out := first.rehearseOutput
 			out.Worlds, out.Shard = len(r.Worlds), "1/1"
 			out.Policies, out.Raw, out.FailedShare, out.Errors = r.Policies, r.Raw, r.FailedShare, r.Errors
-			out.Decided, out.Failures = r.Decided, r.Failures
+			out.Decided, out.Failures, out.Checks = r.Decided, r.Failures, r.Checks
 			return emitRehearsal(c, o, out, r, 0)
 		},
 	}
@@ -265,6 +265,7 @@ type rehearseOutput struct {
 	Errors       int                        `json:"worlds_failed"`
 	Decided      int                        `json:"worlds_decided"`
 	Failures     []rehearsal.Failure        `json:"failures"`
+	Checks       []rehearsal.CheckRate      `json:"checks"`
 }
 
 func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
@@ -309,8 +310,53 @@ func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
 		fmt.Fprintln(tw)
 	}
 	tw.Flush()
+	printCheckRates(w, r)
 	printFailures(w, r)
 	fmt.Fprintln(w, "\nthe worlds are simulated from this model's family and a few named departures from it; a rehearsal shows how the policy behaves there, not in the real market")
+}
+
+// printCheckRates prints each check's stated and realised false-alarm rate
+// and its power per misspecified kind.
+func printCheckRates(w io.Writer, r rehearseOutput) {
+	if len(r.Checks) == 0 {
+		return
+	}
+	var kinds []rehearsal.Kind
+	for _, k := range rehearsal.AllKinds {
+		for _, c := range r.Checks {
+			if _, ok := c.Power[k]; ok {
+				kinds = append(kinds, k)
+				break
+			}
+		}
+	}
+	fmt.Fprintln(w, "\nchecks: stated false-alarm rate, realised in well-specified worlds, and power (fired on the affected channel) per kind")
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprint(tw, "check\tstated\trealised\t")
+	for _, k := range kinds {
+		fmt.Fprintf(tw, "%s\t", k)
+	}
+	fmt.Fprintln(tw)
+	for _, c := range r.Checks {
+		stated := "not a test"
+		if c.Stated > 0 {
+			stated = fmt.Sprintf("%.1f%%", 100*c.Stated)
+		}
+		real := "-"
+		if c.Worlds > 0 {
+			real = fmt.Sprintf("%.1f%%", 100*c.FalseAlarm)
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%s\t", c.Name, stated, real)
+		for _, k := range kinds {
+			if v, ok := c.Power[k]; ok {
+				fmt.Fprintf(tw, "%.0f%%\t", 100*v)
+			} else {
+				fmt.Fprint(tw, "-\t")
+			}
+		}
+		fmt.Fprintln(tw)
+	}
+	tw.Flush()
 }
 
 // printFailures says how many worlds failed, by stage with the first
