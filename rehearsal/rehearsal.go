@@ -352,7 +352,7 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	if err != nil {
 		return nil, &decision.Error{Stage: decision.StageInput, Err: err}
 	}
-	in := decision.Input{Panel: w.Panel, Design: dw, Plan: p.Plan, Lifts: worldLifts(dw, w, p.Lifts)}
+	in := decision.Input{Panel: w.Panel, Design: dw, Plan: p.Plan, Lifts: worldLifts(w, p.Lifts)}
 	prep, err := decision.Prepare(ctx, in, decision.Settings{Seed: w.Seed, Workers: s.Workers,
 		BootstrapDraws: s.WorldDraws, Replicates: s.Replicates})
 	if err != nil {
@@ -376,7 +376,9 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	h := p.Plan.HorizonWeeks
 	econ := prep.Economics
 	current := prep.Current
-	truth := dw.NewCurves([]model.Params{w.Truth}, h)
+	// The truth is the world's own response (truth.go), not the model's
+	// curves of w.Truth.
+	truth := w.trueResponse(h)
 	prob, err := p.Plan.Resolve(names, dw.CurrentSpend())
 	if err != nil {
 		return nil, &decision.Error{Stage: decision.StageAllocation, Err: err}
@@ -419,14 +421,14 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 // windows and standard errors, the incremental KPI the world's truth gives
 // over the window plus normal noise of the test's standard error (one
 // stream per world).
-func worldLifts(d *model.Design, w *World, lifts []validation.LiftTest) []validation.LiftTest {
+func worldLifts(w *World, lifts []validation.LiftTest) []validation.LiftTest {
 	if len(lifts) == 0 {
 		return nil
 	}
 	rng := uncertainty.Stream(w.Seed^0x11f7, 0)
 	out := make([]validation.LiftTest, len(lifts))
 	for i, l := range lifts {
-		l.Incremental = w.LiftTruth(d, l.ChannelIndex, l.From, l.To) + l.StdError*rng.NormFloat64()
+		l.Incremental = w.LiftTruth(l.ChannelIndex, l.From, l.To) + l.StdError*rng.NormFloat64()
 		l.Source = "simulated from the world's truth"
 		out[i] = l
 	}
