@@ -28,8 +28,8 @@ const (
 var AllKinds = []Kind{Drift, Season, Carryover, Shape, Confounder, Break}
 
 const (
-	driftSize      = 0.30
-	seasonSize     = 0.40
+	driftSize  = 0.30
+	seasonSize = 0.40
 	// shapeThreshold is the shape world's threshold as a share of the
 	// channel's mean adstock over the history.
 	shapeThreshold = 0.5
