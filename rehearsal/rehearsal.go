@@ -131,11 +131,15 @@ type Outcome struct {
 	// Stated is, per tested check name, the false-alarm rate it was
 	// graded at (the sum over its channels of each check's rate, default
 	// rates); checks without a p-value are absent.
-	Stated   map[string]float64 `json:"stated_rates,omitempty"`
-	Oracle   Score              `json:"oracle"`   // the best plan under the truth, same constraints
-	Raw      Score              `json:"raw"`      // the allocator's proposal
-	Policies []Score            `json:"policies"` // each policy's approved plan, in Problem order
-	Err      string             `json:"error,omitempty"`
+	Stated map[string]float64 `json:"stated_rates,omitempty"`
+	// Untested are the failed checks that carry no p-value because the
+	// channel's effect is fitted to zero (name/scope): they fail so as not
+	// to pass by comparing 0 with 0, and are not false alarms of a test.
+	Untested []string `json:"failed_untested,omitempty"`
+	Oracle   Score    `json:"oracle"`   // the best plan under the truth, same constraints
+	Raw      Score    `json:"raw"`      // the allocator's proposal
+	Policies []Score  `json:"policies"` // each policy's approved plan, in Problem order
+	Err      string   `json:"error,omitempty"`
 	// Stage is where a world that could not be decided failed (input, fit,
 	// bootstrap, validation, allocation, oracle, gate); "" when decided.
 	Stage string `json:"failed_stage,omitempty"`
@@ -195,7 +199,9 @@ type Result struct {
 	Checks []CheckRate `json:"checks"`
 }
 
-// CheckRate is how often one check (over all channels) failed.
+// CheckRate is how often one check (over all channels) failed. A check
+// that failed because a channel's effect was fitted to zero ("not judged")
+// is not counted: it is not a test's alarm.
 type CheckRate struct {
 	Name string `json:"name"`
 	// Stated is the mean rate it was graded at in well-specified worlds:
@@ -363,6 +369,9 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	for _, c := range val.Evidence.Checks {
 		if c.Status == validation.Fail {
 			out.FailedChecks = append(out.FailedChecks, c.Name+"/"+c.Scope)
+			if c.PValue == nil && strings.HasPrefix(c.Detail, "not judged") {
+				out.Untested = append(out.Untested, c.Name+"/"+c.Scope)
+			}
 		}
 		if c.PValue != nil && !c.RawThreshold {
 			if out.Stated == nil {
