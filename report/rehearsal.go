@@ -77,11 +77,19 @@ type rehearsalView struct {
 	Kinds                 []kindRow
 	Errors                string
 	Failures              []string // per stage: count and the first reasons
+	CheckKinds            []string // misspecified kinds with a power column
+	CheckRows             []checkRow
 	Loud                  string   // a warning when more than a tenth of the worlds failed
 }
 
 type summaryRow struct {
 	Name, Worlds, PLoss, Mean, P05, Oracle, Refused string
+}
+
+// checkRow is one check's stated and realised false-alarm rate and power.
+type checkRow struct {
+	Name, Stated, Realised string
+	Power                  []string // per CheckKinds
 }
 
 type kindRow struct {
@@ -218,6 +226,28 @@ func newRehearsalView(r *rehearsal.Result) (*rehearsalView, error) {
 			row.Cells = append(row.Cells, pct(s.PLoss), pct(s.OracleShare))
 		}
 		v.Kinds = append(v.Kinds, row)
+	}
+	for _, k := range rehearsal.AllKinds {
+		if slices.ContainsFunc(r.Checks, func(c rehearsal.CheckRate) bool { _, ok := c.Power[k]; return ok }) {
+			v.CheckKinds = append(v.CheckKinds, string(k))
+		}
+	}
+	for _, c := range r.Checks {
+		row := checkRow{Name: c.Name, Stated: "not a test", Realised: "n/a"}
+		if c.Stated > 0 {
+			row.Stated = pct(c.Stated)
+		}
+		if c.Worlds > 0 {
+			row.Realised = pct(c.FalseAlarm)
+		}
+		for _, k := range v.CheckKinds {
+			if p, ok := c.Power[rehearsal.Kind(k)]; ok {
+				row.Power = append(row.Power, pct(p))
+			} else {
+				row.Power = append(row.Power, "n/a")
+			}
+		}
+		v.CheckRows = append(v.CheckRows, row)
 	}
 	return v, nil
 }

@@ -227,3 +227,17 @@ func TestRehearsalPageRefusesZeroWorlds(t *testing.T) {
 		t.Errorf("wrote %d bytes of a page over zero worlds", b.Len())
 	}
 }
+
+// TestRehearsalPageShowsCheckRates: the page lists each check's stated and
+// realised false-alarm rate and its power, as the result holds them.
+func TestRehearsalPageShowsCheckRates(t *testing.T) {
+	r := testRehearsal()
+	r.Checks = []rehearsal.CheckRate{{Name: "stability/drift", Stated: 0.0167, FalseAlarm: 0.025, Worlds: 40,
+		Power: map[rehearsal.Kind]float64{rehearsal.Drift: 0.375}}}
+	page := string(renderRehearsal(t, r))
+	for _, want := range []string{`id="checks-table"`, "stability/drift", "1.7%", "2.5%", "37.5%"} {
+		if !strings.Contains(page, want) {
+			t.Errorf("page lacks %q", want)
+		}
+	}
+}
