@@ -79,7 +79,7 @@ type rehearsalView struct {
 	Failures              []string // per stage: count and the first reasons
 	CheckKinds            []string // misspecified kinds with a power column
 	CheckRows             []checkRow
-	Loud                  string   // a warning when more than a tenth of the worlds failed
+	Loud                  string // a warning when more than a tenth of the worlds failed
 }
 
 type summaryRow struct {
