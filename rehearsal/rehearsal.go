@@ -132,9 +132,11 @@ type Outcome struct {
 	// graded at (the sum over its channels of each check's rate, default
 	// rates); checks without a p-value are absent.
 	Stated map[string]float64 `json:"stated_rates,omitempty"`
-	// Untested are the failed checks that carry no p-value because the
-	// channel's effect is fitted to zero (name/scope): they fail so as not
-	// to pass by comparing 0 with 0, and are not false alarms of a test.
+	// Untested are the failed checks of a testing kind that carry no
+	// p-value (name/scope): the channel's effect is fitted to zero (they
+	// fail so as not to pass by comparing 0 with 0), or the null could not
+	// be measured and the raw limit graded them. They are not a test's
+	// false alarms and are counted apart.
 	Untested []string `json:"failed_untested,omitempty"`
 	Oracle   Score    `json:"oracle"`   // the best plan under the truth, same constraints
 	Raw      Score    `json:"raw"`      // the allocator's proposal
@@ -212,6 +214,9 @@ type CheckRate struct {
 	// some channel; Worlds counts those worlds.
 	FalseAlarm float64 `json:"false_alarm_rate"`
 	Worlds     int     `json:"well_specified_worlds"`
+	// Untested is the share of well-specified worlds where it failed
+	// without a p-value (Outcome.Untested): a channel fitted to zero.
+	Untested float64 `json:"untested_share"`
 	// Power is, per misspecified kind, the share of its worlds where it
 	// failed for the affected channel (or globally, for a global check).
 	Power map[Kind]float64 `json:"power,omitempty"`
@@ -369,7 +374,7 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	for _, c := range val.Evidence.Checks {
 		if c.Status == validation.Fail {
 			out.FailedChecks = append(out.FailedChecks, c.Name+"/"+c.Scope)
-			if c.PValue == nil && strings.HasPrefix(c.Detail, "not judged") {
+			if c.PValue == nil && validation.IsTest(c.Name) {
 				out.Untested = append(out.Untested, c.Name+"/"+c.Scope)
 			}
 		}
@@ -547,8 +552,8 @@ func (s *Summary) finish() {
 // checkRates measures each check's realised false-alarm rate and power.
 func checkRates(worlds []Outcome) []CheckRate {
 	type acc struct {
-		stated       float64
-		well, fired  int
+		stated             float64
+		well, fired, unjud int
 		kindN, kindF map[Kind]int
 	}
 	m := map[string]*acc{}
@@ -592,6 +597,9 @@ func checkRates(worlds []Outcome) []CheckRate {
 				if fired[name] {
 					a.fired++
 				}
+				if unjudged[name] {
+					a.unjud++
+				}
 				continue
 			}
 			a.kindN[o.Kind]++
@@ -606,6 +614,7 @@ func checkRates(worlds []Outcome) []CheckRate {
 		if a.well > 0 {
 			cr.Stated = a.stated / float64(a.well)
 			cr.FalseAlarm = float64(a.fired) / float64(a.well)
+			cr.Untested = float64(a.unjud) / float64(a.well)
 		}
 		for k, n := range a.kindN {
 			if cr.Power == nil {

@@ -147,6 +147,11 @@ var rawKeys = map[string]string{
 	"reconciliation/coverage":        "coverage",
 }
 
+// IsTest reports whether the check called name tests the model (carries a
+// p-value when it can be judged) rather than measuring precision or
+// usefulness against a raw limit.
+func IsTest(name string) bool { _, ok := rawKeys[name]; return ok }
+
 // keepRaw marks the checks whose raw threshold was Set.
 func (th Thresholds) keepRaw(checks []Check) {
 	for i := range checks {

@@ -300,7 +300,9 @@ func signedWaivers(path string, pol *policies.Policy) ([]gate.Waiver, error) {
 // printDecision prints the decision table: per channel current → proposed
 // → approved, the safe step and the reason; then the verdict and who signs.
 func printDecision(w io.Writer, r *record.Decision) {
-	fmt.Fprintf(w, "decision on next %d weeks (policy %s, %d draws, seed %d); weekly spend\n\n", r.Horizon, r.Policy, r.Draws.Count-r.Draws.Failed, r.Seed)
+	fmt.Fprintf(w, "decision on next %d weeks (policy %s, seed %d); weekly spend\n", r.Horizon, r.Policy, r.Seed)
+	fmt.Fprintf(w, "the allocator optimised over %d draws and the gate judged %d others (%d of %d replicates failed)\n\n",
+		r.Decision.Draws.Allocated, r.Decision.Draws.Judged, r.Draws.Failed, r.Draws.Count)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "channel\tcurrent\tproposed\tapproved\tsafe step\treason")
 	for _, m := range r.Moves {

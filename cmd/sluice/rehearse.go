@@ -330,9 +330,10 @@ func printCheckRates(w io.Writer, r rehearseOutput) {
 			}
 		}
 	}
-	fmt.Fprintln(w, "\nchecks: stated false-alarm rate, realised in well-specified worlds, and power (fired on the affected channel) per kind")
+	fmt.Fprintln(w, "\nchecks: stated false-alarm rate, realised in well-specified worlds, share not judged there (a channel fitted to zero),")
+	fmt.Fprintln(w, "and power (fired on the affected channel) per kind")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprint(tw, "check\tstated\trealised\t")
+	fmt.Fprint(tw, "check\tstated\trealised\tnot judged\t")
 	for _, k := range kinds {
 		fmt.Fprintf(tw, "%s\t", k)
 	}
@@ -346,7 +347,7 @@ func printCheckRates(w io.Writer, r rehearseOutput) {
 		if c.Worlds > 0 {
 			real = fmt.Sprintf("%.1f%%", 100*c.FalseAlarm)
 		}
-		fmt.Fprintf(tw, "%s\t%s\t%s\t", c.Name, stated, real)
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%.1f%%\t", c.Name, stated, real, 100*c.Untested)
 		for _, k := range kinds {
 			if v, ok := c.Power[k]; ok {
 				fmt.Fprintf(tw, "%.0f%%\t", 100*v)
