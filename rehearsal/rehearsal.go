@@ -554,7 +554,7 @@ func checkRates(worlds []Outcome) []CheckRate {
 	type acc struct {
 		stated             float64
 		well, fired, unjud int
-		kindN, kindF map[Kind]int
+		kindN, kindF       map[Kind]int
 	}
 	m := map[string]*acc{}
 	get := func(name string) *acc {
@@ -582,8 +582,13 @@ func checkRates(worlds []Outcome) []CheckRate {
 		}
 		fired := map[string]bool{}     // any channel
 		firedHere := map[string]bool{} // the affected channel, or global
+		unjudged := map[string]bool{}
 		for _, f := range o.FailedChecks {
 			name := checkName(f)
+			if slices.Contains(o.Untested, f) {
+				unjudged[name] = true
+				continue
+			}
 			fired[name] = true
 			scope := f[len(name)+1:]
 			if scope == o.Channel || scope == validation.Global {
