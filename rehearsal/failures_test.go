@@ -52,3 +52,26 @@ func TestFailuresCountedByStage(t *testing.T) {
 		t.Errorf("3 of 20 failed (15%%): must be loud")
 	}
 }
+
+// TestCheckRatesCountNotJudgedApart: a check that failed without a p-value
+// (a channel fitted to zero) is not a test's false alarm; a tested failure
+// is; power counts the affected channel only.
+func TestCheckRatesCountNotJudgedApart(t *testing.T) {
+	ws := []Outcome{
+		{Kind: WellSpecified, FailedChecks: []string{"stability/drift/tv"}, Untested: []string{"stability/drift/tv"},
+			Stated: map[string]float64{"stability/drift": 0.02}, Policies: []Score{{}}},
+		{Kind: WellSpecified, FailedChecks: []string{"stability/drift/search"}, Stated: map[string]float64{"stability/drift": 0.02}, Policies: []Score{{}}},
+		{Kind: WellSpecified, Stated: map[string]float64{"stability/drift": 0.02}, Policies: []Score{{}}},
+		{Kind: WellSpecified, Stated: map[string]float64{"stability/drift": 0.02}, Policies: []Score{{}}},
+		{Kind: Drift, Channel: "tv", FailedChecks: []string{"stability/drift/search"}, Policies: []Score{{}}},
+		{Kind: Drift, Channel: "tv", FailedChecks: []string{"stability/drift/tv"}, Policies: []Score{{}}},
+	}
+	got := checkRates(ws)
+	if len(got) != 1 {
+		t.Fatalf("rates %+v", got)
+	}
+	c := got[0]
+	if c.Worlds != 4 || c.FalseAlarm != 0.25 || c.Untested != 0.25 || c.Stated != 0.02 || c.Power[Drift] != 0.5 {
+		t.Errorf("got %+v; want 4 worlds, realised 25%%, not judged 25%%, stated 2%%, drift power 50%%", c)
+	}
+}
