@@ -179,6 +179,12 @@ func Prepare(ctx context.Context, in Input, s Settings) (*Prepared, error) {
 	d, plan := in.Design, in.Plan
 	y := in.Panel.KPI
 	names := d.Spec.ChannelNames()
+	// The plan's constraints first: they are cheap to check and a plan that
+	// cannot hold should fail before any refit.
+	rp, err := plan.Resolve(names, d.CurrentSpend())
+	if err != nil {
+		return nil, fail(StageAllocation, err)
+	}
 
 	// Draws: given, or a bootstrap here (which makes the point fit too).
 	dr := in.Draws
@@ -188,7 +194,6 @@ func Prepare(ctx context.Context, in Input, s Settings) (*Prepared, error) {
 		if s.Progress != nil {
 			b.Progress = func(done, total int) { s.Progress("bootstrap", done, total) }
 		}
-		var err error
 		if dr, err = b.Run(ctx); err != nil {
 			return nil, fail(StageBootstrap, err)
 		}
@@ -221,10 +226,6 @@ func Prepare(ctx context.Context, in Input, s Settings) (*Prepared, error) {
 	// Proposal: the allocator's on its half of the draws, or a person's.
 	h := plan.HorizonWeeks
 	econ := optimize.Economics{Horizon: h, Margin: plan.Margin, ValuePerKPI: plan.ValuePerKPI}
-	rp, err := plan.Resolve(names, d.CurrentSpend())
-	if err != nil {
-		return nil, fail(StageAllocation, err)
-	}
 	current := make([]float64, len(rp.Constraints.Channels))
 	for k, l := range rp.Constraints.Channels {
 		current[k] = l.Current

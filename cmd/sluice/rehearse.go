@@ -367,7 +367,7 @@ func printFailures(w io.Writer, r rehearseOutput) {
 		return
 	}
 	n := r.Errors + r.Decided
-	if float64(r.Errors) > rehearsal.LoudShare*float64(n) {
+	if r.Decided > 0 && float64(r.Errors) > rehearsal.LoudShare*float64(n) {
 		fmt.Fprintf(w, "\nWARNING: %d of %d worlds (%.0f%%) could not be decided; the figures cover only the %d that could, which may not be like the others\n",
 			r.Errors, n, 100*float64(r.Errors)/float64(n), r.Decided)
 	}
