@@ -307,8 +307,11 @@ func (p *Prepared) Judge(pol *policies.Policy, waivers []gate.Waiver) (*Outcome,
 		Draws: record.DrawsInfo{Count: len(dr.Replicates), Failed: dr.Failed(), Method: string(dr.Header.Method),
 			BlockLength: dr.Header.BlockLength},
 		Proposal: p.proposal, Decision: *gd, Caution: record.Caution}
-	sum := val.Evidence.Summary()
-	rec.Evidence = map[string]int{"pass": sum[validation.Pass], "warn": sum[validation.Warn], "fail": sum[validation.Fail]}
+	// The counts as the policy graded the checks (its false-alarm rates).
+	rec.Evidence = map[string]int{"pass": 0, "warn": 0, "fail": 0}
+	for _, c := range gd.Checks {
+		rec.Evidence[string(c.Status)]++
+	}
 	fc, total := forecastBand(in, s.Seed, p.Point, judge, gd.ApprovedPlan, h, p.sigma)
 	rec.Forecast, rec.ForecastTotal = *fc, total
 	out.Record = rec
