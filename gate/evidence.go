@@ -75,7 +75,7 @@ func reviewEvidence(r Review) (*evidenceOutcome, error) {
 			// The draws that judge the moves carry the same uncertainty:
 			// acting on it again would count it twice.
 			use.Action = policies.Warn
-			what := fmt.Sprintf("check %s (%s) %s: %s", c.Name, c.Scope, statusWord(c.Status == validation.Fail), c.Detail)
+			what := fmt.Sprintf("check %s on %s (%s) %s: %s", c.Name, c.Scope, c.Family, statusWord(c.Status == validation.Fail), c.Detail)
 			use.Effect = "warning only: the risk limits already count this uncertainty (same draws)"
 			out.warnings = append(out.warnings, what+"; the risk limits already count it")
 			out.checks = append(out.checks, use)
@@ -91,7 +91,11 @@ func reviewEvidence(r Review) (*evidenceOutcome, error) {
 				lifted[i] = true
 			}
 		}
-		what := fmt.Sprintf("check %s (%s) %s", c.Name, c.Family, statusWord(c.Status == validation.Fail))
+		on := ""
+		if !global {
+			on = " on " + c.Scope
+		}
+		what := fmt.Sprintf("check %s%s (%s) %s", c.Name, on, c.Family, statusWord(c.Status == validation.Fail))
 		if c.Detail != "" {
 			what += ": " + c.Detail
 		}

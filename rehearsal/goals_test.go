@@ -84,7 +84,7 @@ func TestFalseAlarmRatesMatchStated(t *testing.T) {
 		t.Skip("a rehearsal of well-specified worlds")
 	}
 	p := demoProblem(t, "standard")
-	s := Settings{Seed: 17, Worlds: 24, Misspecified: 0, BaseDraws: 30, WorldDraws: 20, Replicates: 20, Workers: 2}
+	s := Settings{Seed: 17, Worlds: 20, Misspecified: 0, BaseDraws: 30, WorldDraws: 20, Replicates: 12, Workers: 2}
 	r, err := Run(context.Background(), p, s)
 	if err != nil {
 		t.Fatal(err)
