@@ -134,6 +134,7 @@ func rehearseCommand() *cli.Command {
 // emitRehearsal writes DIR/rehearsal.json and DIR/rehearsal.html (with
 // --out) and prints the table or, with --json, the summary.
 func emitRehearsal(c *cli.Context, o *opts, out rehearseOutput, r *rehearsal.Result, took time.Duration) error {
+	out = out.withWarning(r)
 	if r.Decided == 0 {
 		printFailures(c.App.ErrWriter, out)
 		return withHint(fmt.Errorf("no world was decided: all %d failed; nothing was written", r.Errors),
@@ -266,6 +267,17 @@ type rehearseOutput struct {
 	Decided      int                        `json:"worlds_decided"`
 	Failures     []rehearsal.Failure        `json:"failures"`
 	Checks       []rehearsal.CheckRate      `json:"checks"`
+	// Warning is set when more than a tenth of the worlds failed.
+	Warning string `json:"warning,omitempty"`
+}
+
+// withWarning sets out.Warning from r.
+func (out rehearseOutput) withWarning(r *rehearsal.Result) rehearseOutput {
+	if r.Loud() {
+		out.Warning = fmt.Sprintf("%d of %d worlds could not be decided (more than %.0f%%); the figures cover only the %d that could",
+			r.Errors, r.Errors+r.Decided, 100*rehearsal.LoudShare, r.Decided)
+	}
+	return out
 }
 
 func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
