@@ -303,7 +303,7 @@ func (p *Prepared) Judge(pol *policies.Policy, waivers []gate.Waiver) (*Outcome,
 	// The record's content.
 	rec := &record.Decision{Format: record.DecisionFormat, Tool: "sluice", Seed: s.Seed,
 		KPI: in.Panel.KPIName, AsOf: in.Panel.Weeks[in.Panel.NumWeeks()-1].Format(time.DateOnly),
-		Channels: names, Horizon: h, PolicySHA256: record.SHA256Hex(pol.Raw),
+		Channels: names, Horizon: h, Support: support, PolicySHA256: record.SHA256Hex(pol.Raw),
 		Draws: record.DrawsInfo{Count: len(dr.Replicates), Failed: dr.Failed(), Method: string(dr.Header.Method),
 			BlockLength: dr.Header.BlockLength},
 		Proposal: p.proposal, Decision: *gd, Caution: record.Caution}

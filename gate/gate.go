@@ -276,15 +276,9 @@ func Run(r Review, s Settings) (*Decision, error) {
 	}
 	d.ApprovedPlan = approved
 	d.Risk.Approved = ev.risk(make([]float64, r.Response.NumDraws()), approved)
-	d.SignoffsRequired = signoffs(pol, planFacts{
-		channels: r.Channels, current: c, approved: approved, support: r.Support,
-		horizon: r.Economics.Horizon, verdict: d.Verdict, waivers: evid.acceptedWaivers(),
-	})
+	d.SignoffsRequired = RequiredSignoffs(pol, d, r.Support, r.Economics.Horizon)
 	if d.Reasons == nil {
 		d.Reasons = []string{}
-	}
-	if d.SignoffsRequired == nil {
-		d.SignoffsRequired = []Signoff{}
 	}
 	return d, nil
 }

@@ -30,6 +30,31 @@ type planFacts struct {
 	waivers           []WaiverUse // accepted ones
 }
 
+// RequiredSignoffs returns the sign-offs the policy's rules require of
+// decision d, judged on what d records: each move's current and approved
+// weekly spend, the verdict and the accepted waivers; support is each
+// channel's observed range and horizon the plan's weeks. Run records
+// exactly this list, so a verifier can derive it again from a record
+// instead of trusting the record's copy.
+func RequiredSignoffs(p *policies.Policy, d *Decision, support []SupportRange, horizon int) []Signoff {
+	f := planFacts{support: support, horizon: horizon, verdict: d.Verdict}
+	for _, m := range d.Moves {
+		f.channels = append(f.channels, m.Channel)
+		f.current = append(f.current, m.Current)
+		f.approved = append(f.approved, m.Approved)
+	}
+	for _, w := range d.Waivers {
+		if w.Accepted {
+			f.waivers = append(f.waivers, w)
+		}
+	}
+	out := signoffs(p, f)
+	if out == nil {
+		out = []Signoff{}
+	}
+	return out
+}
+
 // signoffs returns the sign-offs the policy's rules require for the facts,
 // in rule order, then those of accepted waivers.
 func signoffs(p *policies.Policy, f planFacts) []Signoff {

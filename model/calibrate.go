@@ -23,24 +23,19 @@ type Lift struct {
 // fixed columns are zero and whose media columns are the lift differences;
 // the lift effect is linear in β, so the projection still holds.
 // FitResult.SSE includes the lift rows; Fitted and Residuals are the weeks'.
+// The lifts replace the design's own (Design.Lifts); sigma also weighs the
+// priors (FitSettings.NoiseSD).
 func (d *Design) FitCalibrated(y []float64, lifts []Lift, sigma float64, set FitSettings) (*FitResult, error) {
 	if !(sigma > 0) || math.IsInf(sigma, 0) {
 		panic("model: FitCalibrated: sigma must be positive and finite")
+	}
+	if _, err := d.WithLifts(lifts); err != nil {
+		panic("model: FitCalibrated: " + err.Error())
 	}
 	rows := make([]int, d.N)
 	for t := range rows {
 		rows[t] = t
 	}
-	var extra []liftRow
-	for _, l := range lifts {
-		if l.Channel < 0 || l.Channel >= len(d.Spec.Channels) || l.From < 0 || l.To >= d.N || l.From > l.To {
-			panic("model: FitCalibrated: lift out of range")
-		}
-		if !(l.StdError > 0) {
-			panic("model: FitCalibrated: lift standard error must be positive")
-		}
-		extra = append(extra, liftRow{channel: l.Channel, from: l.From, to: l.To,
-			measured: l.Incremental, weight: sigma / l.StdError})
-	}
-	return fitExtended(d, y, rows, extra, set)
+	set.NoiseSD = sigma
+	return fitExtended(d, y, rows, lifts, set)
 }

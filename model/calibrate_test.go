@@ -21,11 +21,16 @@ func TestFitCalibratedLimits(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	sigma := FitStats(y, fit.Residuals, d.Spec.NumParams()).Sigma
+	// The priors are weighed by the fit's σ; the calibrated fits use it too,
+	// so only the lift rows differ.
+	sigma := fit.NoiseSD
+	if !(sigma > 0) {
+		t.Fatalf("fit recorded no noise SD")
+	}
 	k, from, to := 1, 50, 57
 	before := d.LiftEffect(k, fit.Params.Channels[k], from, to)
 	target := 1.5 * before
-	warm := FitSettings{Seed: 1, Workers: 2, Warm: &fit.Params, Starts: 3}
+	warm := FitSettings{Seed: 1, Workers: 2, Warm: &fit.Params, Starts: 3, Priors: fit.Priors}
 	tight, err := d.FitCalibrated(y, []Lift{{Channel: k, From: from, To: to, Incremental: target, StdError: 1e-4 * target}}, sigma, warm)
 	if err != nil {
 		t.Fatal(err)

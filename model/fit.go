@@ -59,6 +59,29 @@ type Design struct {
 	// (weeks of the full data minus one), kept by Head and Forecast so the
 	// trend means the same everywhere.
 	TrendScale float64
+	// Lifts are lift tests every fit of the design is calibrated with
+	// (the lift rows of FitCalibrated, weighed by the fit's noise SD); set
+	// them with WithLifts.
+	Lifts []Lift
+}
+
+// WithLifts returns a shallow copy of d whose fits are calibrated with the
+// lift tests (nil: none). It returns an error naming the first test whose
+// channel or window is outside the design or whose standard error is not
+// positive.
+func (d *Design) WithLifts(lifts []Lift) (*Design, error) {
+	for i, l := range lifts {
+		if l.Channel < 0 || l.Channel >= len(d.Spec.Channels) || l.From < 0 || l.To >= d.N || l.From > l.To {
+			return nil, fmt.Errorf("model: lift test %d: channel %d, weeks %d..%d are outside the design (%d channels, %d weeks)",
+				i+1, l.Channel, l.From, l.To, len(d.Spec.Channels), d.N)
+		}
+		if !(l.StdError > 0) || math.IsInf(l.StdError, 0) || math.IsNaN(l.Incremental) || math.IsInf(l.Incremental, 0) {
+			return nil, fmt.Errorf("model: lift test %d: standard error %g must be positive and the lift finite", i+1, l.StdError)
+		}
+	}
+	c := *d
+	c.Lifts = append([]Lift(nil), lifts...)
+	return &c, nil
 }
 
 // NewDesign checks the panel against the spec and builds the fixed columns.
@@ -162,6 +185,25 @@ type FitSettings struct {
 	MaxEvaluations int     // per start; 0 means 400
 	Workers        int     // starts run in parallel; 0 means 1
 	Warm           *Params // if set, the first start; with Starts == 0 only it is tried
+	// Priors are the priors of the maximum a posteriori fit; nil means the
+	// spec's, with defaults for what it leaves unset (ResolvePriors of y).
+	// A bootstrap refit passes the full fit's, so every replicate has the
+	// same priors.
+	Priors Priors
+	// NoiseSD is σ, the weight of the priors and of the lift rows; zero
+	// means estimated: a first multi-start with a rough σ (the residual SD
+	// of a linear regression on the base and the raw spend), then, if the
+	// fit's residual SD differs by more than 5%, one warm refit with it.
+	NoiseSD float64
+	// NoPriors makes the fit a plain least-squares fit (no prior
+	// penalties; lift rows, if any, still count).
+	NoPriors bool
+	// ProbeEvaluations, if positive, is the evaluation budget of every
+	// start but the first: cheap probes of other basins beside a warm
+	// start (with Warm set, the probes are all seeded random points, no
+	// centre of the box). A probe that ends best without converging is returned with
+	// its status, for the caller to continue.
+	ProbeEvaluations int
 }
 
 // FitResult is a fitted model with the fit's diagnostics.
@@ -174,7 +216,20 @@ type FitResult struct {
 	Evaluations int // over all starts
 	Fitted      []float64
 	Residuals   []float64
+	// Priors are the priors the fit used (nil with NoPriors), NoiseSD the
+	// σ that weighed them and the lift rows, Penalty the priors' part of
+	// the minimized objective (prior rows of θ and of the ROIs); SSE
+	// excludes it.
+	Priors  Priors  `json:"priors,omitempty"`
+	NoiseSD float64 `json:"noise_sd,omitempty"`
+	Penalty float64 `json:"penalty,omitempty"`
 }
+
+// FlatTol is the fit's varpro.Settings.FlatTol: a search creeping along a
+// flat valley stops once 10 steps gained less than 1e-6 of the objective,
+// 1e-6·n in units of −2 log-likelihood — far below what the data can tell
+// apart (common practice, no source).
+const FlatTol = 1e-6
 
 // ErrNoFit is returned when no start produced a finite fit.
 var ErrNoFit = errors.New("model: no start produced a usable fit")
@@ -187,12 +242,11 @@ func (d *Design) Fit(y []float64, set FitSettings) (*FitResult, error) {
 	if err := d.CheckBase(); err != nil {
 		return nil, err
 	}
-	starts := d.starts(set)
-	solvers := make([]*varpro.Solver, min(max(set.Workers, 1), len(starts)))
-	for i := range solvers {
-		solvers[i] = newWorkspace(d, y).solver
+	rows := make([]int, d.N)
+	for t := range rows {
+		rows[t] = t
 	}
-	return d.multiStart(y, starts, solvers, set)
+	return fitExtended(d, y, rows, d.Lifts, set)
 }
 
 // multiStart runs the starts on the solvers (one goroutine each) and keeps
@@ -211,7 +265,11 @@ func (d *Design) multiStart(y []float64, starts [][]float64, solvers []*varpro.S
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				r, err := s.Solve(starts[i], varpro.Settings{MaxEvaluations: set.MaxEvaluations})
+				budget := set.MaxEvaluations
+				if i > 0 && set.ProbeEvaluations > 0 {
+					budget = set.ProbeEvaluations
+				}
+				r, err := s.Solve(starts[i], varpro.Settings{MaxEvaluations: budget, FlatTol: FlatTol})
 				out[i] = outcome{r, err}
 			}
 		}()
@@ -287,12 +345,15 @@ func (d *Design) starts(set FitSettings) [][]float64 {
 		out = append(out, th)
 	}
 	logScale := d.logScaled()
+	// Probes beside a warm start are all seeded random points: the centre
+	// of the box is the same for every call, so it probes nothing new.
+	probes := set.Warm != nil && set.ProbeEvaluations > 0
 	for i := 0; len(out) < n; i++ {
 		th := make([]float64, len(lo))
 		rng := rand.New(rand.NewPCG(set.Seed, uint64(i)))
 		for j := range th {
 			u := 0.5
-			if i > 0 {
+			if i > 0 || probes {
 				u = rng.Float64()
 			}
 			if logScale[j] {
@@ -548,6 +609,13 @@ func (d *Design) Head(n int) *Design {
 		panic("model: head length out of range")
 	}
 	h := &Design{Spec: d.Spec, N: n, MeanSpend: d.MeanSpend, TrendScale: d.TrendScale, Spend: make([][]float64, len(d.Spend))}
+	// Lift tests whose window ends inside the head stay; the others are
+	// evidence about weeks the head does not have.
+	for _, l := range d.Lifts {
+		if l.To < n {
+			h.Lifts = append(h.Lifts, l)
+		}
+	}
 	for k, x := range d.Spend {
 		h.Spend[k] = x[:n:n]
 	}

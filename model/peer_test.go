@@ -28,7 +28,8 @@ func TestSciPyPeer(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	set := FitSettings{Seed: 1}
+	// The peer solves plain least squares, so the fit does too (no priors).
+	set := FitSettings{Seed: 1, NoPriors: true}
 	start := time.Now()
 	fr, err := d.Fit(sim.Panel.KPI, set)
 	if err != nil {

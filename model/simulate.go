@@ -8,6 +8,7 @@ import (
 	"slices"
 	"time"
 
+	"sluice/internal/groundtruth"
 	"sluice/internal/strictyaml"
 )
 
@@ -251,20 +252,70 @@ func Simulate(t *Truth) (*Simulated, error) {
 	for _, c := range t.Channels {
 		params.Channels = append(params.Channels, ChannelParams{Decay: c.Decay, Peak: c.Peak, HalfSat: c.HalfSat, Shape: shapeOf(c), Beta: c.Beta})
 	}
-	mu := d.Predict(params)
+	world := TrueWorld(d, params)
+	mu := world.MeanPath()
 	noise := ar1(rng, n, t.NoiseAR)
 	sd := t.NoiseSD * meanOf(mu)
 	p.KPI = make([]float64, n)
 	for i := range mu {
 		p.KPI[i] = math.Max(0, math.Round((mu[i]+sd*noise[i])*100)/100)
 	}
-	sim := &Simulated{Panel: p, Truth: t, Params: params, Summary: d.Summarize(params, 1)}
-	cur := d.CurrentSpend()
-	for k, cp := range params.Channels {
-		r, _ := d.NewCurve(k, cp, t.Horizon).Eval(cur[k])
-		sim.Response = append(sim.Response, r)
+	sim := &Simulated{Panel: p, Truth: t, Params: params, Summary: trueSummary(d, params, world)}
+	for k := range params.Channels {
+		sim.Response = append(sim.Response, world.Response(k, world.CurrentSpend(k)))
 	}
 	return sim, nil
+}
+
+// TrueWorld describes the world of design d under parameters p for package
+// groundtruth, which computes its truth apart from this package's
+// transforms, prediction and curves: the baseline is the fixed columns
+// times p.Fixed, the rest the channels' own parameters.
+func TrueWorld(d *Design, p Params) *groundtruth.World {
+	w := &groundtruth.World{Horizon: d.Spec.Horizon, Base: make([]float64, d.N)}
+	for t := range d.N {
+		for j, g := range p.Fixed {
+			w.Base[t] += g * d.Fixed.At(t, j)
+		}
+	}
+	for k, c := range d.Spec.Channels {
+		cp := p.Channels[k]
+		w.Channels = append(w.Channels, groundtruth.Channel{Spend: d.Spend[k], Adstock: c.Adstock, Saturation: c.Saturation,
+			Decay: cp.Decay, Peak: cp.Peak, MaxLag: c.MaxLag, HalfSat: cp.HalfSat, Shape: cp.Shape, Beta: cp.Beta})
+	}
+	return w
+}
+
+// trueSummary is the truth's per-channel figures, computed by package
+// groundtruth (not by Summarize, which the tests grade against it).
+func trueSummary(d *Design, p Params, w *groundtruth.World) []ChannelSummary {
+	out := make([]ChannelSummary, len(p.Channels))
+	var spendAll, contribAll float64
+	for k, c := range d.Spec.Channels {
+		cur := w.CurrentSpend(k)
+		ch := &w.Channels[k]
+		var g float64
+		for _, v := range ch.Kernel() {
+			g += v
+		}
+		var spend float64
+		for _, v := range ch.Spend {
+			spend += v
+		}
+		s := ChannelSummary{Name: c.Name, Contribution: w.Contribution(k), CurrentSpend: cur, ROI: w.ROI(k),
+			MROI: w.MarginalROI(k, cur), HalfLifeWeeks: halfLife(c, p.Channels[k]),
+			Saturation: ch.Sat(cur*g, ch.HalfSatLevel()), SpendShare: spend}
+		spendAll += spend
+		contribAll += s.Contribution
+		out[k] = s
+	}
+	for k := range out {
+		out[k].SpendShare /= spendAll
+		if contribAll > 0 {
+			out[k].ContributionShare = out[k].Contribution / contribAll
+		}
+	}
+	return out
 }
 
 func shapeOf(c TrueChannel) float64 {

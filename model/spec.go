@@ -23,18 +23,38 @@ const (
 // Range is a closed interval [Lo, Hi] of a parameter.
 type Range [2]float64
 
-// ChannelSpec is the model structure of one channel.
+// ChannelSpec is the model structure of one channel. In a Spec built in Go,
+// a zero Range means the default (NewSpec, fill); in a spec file, a range
+// that is written, even [0, 0], is kept as written: low = high fixes the
+// parameter (decay: [0, 0] is "no carryover").
 type ChannelSpec struct {
 	Name       string `yaml:"-"`
 	Adstock    string `yaml:"adstock"`    // "geometric" (default) or "delayed"
 	Saturation string `yaml:"saturation"` // "hill" (default) or "exponential"
-	Decay      Range  `yaml:"decay"`      // λ; default [0, 0.85]
-	Peak       Range  `yaml:"peak"`       // θ in weeks, delayed only; default [0, 4]
+	Decay      Range  `yaml:"decay"`      // λ; default DefaultDecay [0, 0.85]
+	Peak       Range  `yaml:"peak"`       // θ in weeks, delayed only; default DefaultPeak [0, 4]
 	MaxLag     int    `yaml:"max_lag"`    // L, delayed only; default 13
-	// HalfSaturation bounds κ, the adstocked spend at half saturation as a
-	// multiple of the channel's mean weekly spend; default [0.2, 10].
+	// HalfSaturation bounds κ, the steady-state adstock at half saturation
+	// as a multiple of that of the channel's mean weekly spend (κ = 1: half
+	// saturated at mean spend); default DefaultHalfSaturation [0.05, 10].
 	HalfSaturation Range `yaml:"half_saturation"`
-	Shape          Range `yaml:"shape"` // Hill shape s; default [0.5, 3]
+	Shape          Range `yaml:"shape"` // Hill shape s; default DefaultShape [1, 3]
+	// Prior sets the channel's priors; unset ones take the defaults
+	// (ResolvePriors).
+	Prior ChannelPriorsSpec `yaml:"prior"`
+}
+
+// channelFile is a channel as a spec file writes it: a range that is
+// present is kept even when it is [0, 0].
+type channelFile struct {
+	Adstock        string            `yaml:"adstock"`
+	Saturation     string            `yaml:"saturation"`
+	Decay          *Range            `yaml:"decay"`
+	Peak           *Range            `yaml:"peak"`
+	MaxLag         int               `yaml:"max_lag"`
+	HalfSaturation *Range            `yaml:"half_saturation"`
+	Shape          *Range            `yaml:"shape"`
+	Prior          ChannelPriorsSpec `yaml:"prior"`
 }
 
 // Spec is the model structure: which columns play which role, and the form
@@ -52,7 +72,7 @@ type Spec struct {
 
 // SpecFile is the YAML form of a spec (--spec model.yaml).
 type SpecFile struct {
-	Channels  map[string]ChannelSpec `yaml:"channels"`
+	Channels  map[string]channelFile `yaml:"channels"`
 	Controls  []string               `yaml:"controls"`
 	Trend     *bool                  `yaml:"trend"`
 	Harmonics *int                   `yaml:"harmonics"`
@@ -61,14 +81,21 @@ type SpecFile struct {
 	Starts    int                    `yaml:"starts"`
 }
 
-// Defaults (common practice, no source: typical ranges for weekly media
-// data — carryover of at most a few months, half saturation within an order
-// of magnitude of the mean spend, Hill shapes from concave to S-shaped).
+// Default boxes (common practice, no source: typical ranges for weekly
+// media data). Decay up to 0.85 is a half-life of up to about four weeks.
+// Half saturation κ from 0.05 to 10 times the steady state of mean spend:
+// the low end admits a channel deep in saturation at current spend (half
+// saturated at a twentieth of it, as always-on search often is), the high
+// end a channel still nearly linear; the log-normal prior
+// (DefaultHalfSatPrior) rather than the box keeps κ from running off where
+// the data cannot settle it. The Hill shape starts at 1: below 1 the first
+// currency unit has an infinite return. Peaks up to 4 weeks for delayed
+// adstock.
 var (
 	DefaultDecay          = Range{0, 0.85}
 	DefaultPeak           = Range{0, 4}
 	DefaultMaxLag         = 13
-	DefaultHalfSaturation = Range{0.3, 10}
+	DefaultHalfSaturation = Range{0.05, 10}
 	DefaultShape          = Range{1, 3}
 )
 
@@ -118,6 +145,12 @@ func (s *Spec) fill() {
 			c.Shape = DefaultShape
 		}
 	}
+	s.fillSpec()
+}
+
+// fillSpec replaces the spec-wide zero values with defaults; channels are
+// left as they are.
+func (s *Spec) fillSpec() {
 	if s.Period == 0 {
 		s.Period = DefaultPeriod
 	}
@@ -132,12 +165,28 @@ func (s *Spec) fill() {
 // ApplyFile overlays a spec file onto s. Channels in the file must be among
 // s's channels; those not in the file keep their defaults.
 func (s *Spec) ApplyFile(f *SpecFile, source string) error {
-	for name, cs := range f.Channels {
+	for name, cf := range f.Channels {
 		i := slices.IndexFunc(s.Channels, func(c ChannelSpec) bool { return c.Name == name })
 		if i < 0 {
 			return fmt.Errorf("%s: channels.%s: channel is not among the model's channels %v", source, name, s.ChannelNames())
 		}
-		cs.Name = name
+		if err := cf.Prior.validate(source + ": channels." + name + ".prior"); err != nil {
+			return err
+		}
+		// Start from the defaults of the channel's kinds, then keep every
+		// range the file writes, whatever its value.
+		cs := ChannelSpec{Name: name, Adstock: cf.Adstock, Saturation: cf.Saturation, MaxLag: cf.MaxLag, Prior: cf.Prior}
+		one := Spec{Channels: []ChannelSpec{cs}}
+		one.fill()
+		cs = one.Channels[0]
+		for _, r := range []struct {
+			dst *Range
+			src *Range
+		}{{&cs.Decay, cf.Decay}, {&cs.Peak, cf.Peak}, {&cs.HalfSaturation, cf.HalfSaturation}, {&cs.Shape, cf.Shape}} {
+			if r.src != nil {
+				*r.dst = *r.src
+			}
+		}
 		s.Channels[i] = cs
 	}
 	if f.Controls != nil {
@@ -158,7 +207,7 @@ func (s *Spec) ApplyFile(f *SpecFile, source string) error {
 	if f.Starts != 0 {
 		s.Starts = f.Starts
 	}
-	s.fill()
+	s.fillSpec()
 	return s.Validate(source)
 }
 
@@ -166,6 +215,16 @@ func (s *Spec) ApplyFile(f *SpecFile, source string) error {
 func LoadSpecFile(path string) (*SpecFile, error) {
 	var f SpecFile
 	if err := strictyaml.ReadFile(path, &f); err != nil {
+		return nil, err
+	}
+	return &f, nil
+}
+
+// ParseSpecFile reads a YAML spec strictly from data; source names it in
+// messages.
+func ParseSpecFile(data []byte, source string) (*SpecFile, error) {
+	var f SpecFile
+	if err := strictyaml.Decode(data, source, &f); err != nil {
 		return nil, err
 	}
 	return &f, nil
@@ -187,6 +246,9 @@ func (s *Spec) Validate(source string) error {
 	}
 	for _, c := range s.Channels {
 		p := "channels." + c.Name
+		if err := c.Prior.validate(source + ": " + p + ".prior"); err != nil {
+			return err
+		}
 		switch c.Adstock {
 		case AdstockGeometric:
 		case AdstockDelayed:

@@ -115,10 +115,30 @@
 //	                           ROLE may waive; absent: nobody may waive.
 //
 //	roles.ROLE.description     text.
-//	roles.ROLE.keys            list of public keys (PKIX PEM): each entry is
-//	                           either the PEM text itself or a file path,
-//	                           relative to the policy file; absent: none yet
-//	                           (a policy without keys cannot be signed).
+//	roles.ROLE.keys            list of the role's public keys (ed25519, PKIX
+//	                           PEM), each pinned by content so the policy's
+//	                           SHA-256 covers it: either the PEM text itself,
+//	                           or "PATH sha256:FINGERPRINT", a key file
+//	                           (relative to the policy file) and the hex
+//	                           SHA-256 of its PKIX DER bytes, which the file
+//	                           must match when read (`sluice keygen` prints
+//	                           it). A path alone is refused: the file could be
+//	                           replaced without changing the policy. One key
+//	                           may be listed under one role only (separation
+//	                           of duties) unless signing.allow_shared_signers
+//	                           is true. Absent: none yet (a policy without
+//	                           keys cannot be signed).
+//
+//	signing.allow_unsigned     true: a decision that no sign-off rule requires
+//	                           anyone to sign verifies without signatures
+//	                           ("no sign-off required"). Absent (false): a
+//	                           policy without sign-off rules is refused, and so
+//	                           is, at verify time, a record no rule fires for.
+//	signing.allow_shared_signers
+//	                           true: one key may be listed under several
+//	                           roles; absent (false): refused.
+//	signing.max_age_days       verify refuses sign-offs made more than this
+//	                           many days before it runs; 0 (absent): no limit.
 //
 //	signoffs[i].name           required, unique: the rule's name, given as the
 //	                           reason for the sign-off.

@@ -1,6 +1,11 @@
 package policies
 
 import (
+	"crypto/ed25519"
+	"crypto/sha256"
+	"crypto/x509"
+	"encoding/hex"
+	"encoding/pem"
 	"errors"
 	"fmt"
 	"math"
@@ -27,6 +32,7 @@ type Policy struct {
 	Evidence    EvidenceRules   `yaml:"evidence"`
 	Roles       map[string]Role `yaml:"roles"`
 	Signoffs    []SignoffRule   `yaml:"signoffs"`
+	Signing     SigningRules    `yaml:"signing"`
 
 	// Source names where the policy came from: the file path given to Load
 	// or Parse, or "preset:NAME".
@@ -223,25 +229,139 @@ func (e EvidenceRules) MayWaive(role string, c validation.Check) bool {
 // Role is a group of people who sign, with their public keys.
 type Role struct {
 	Description string   `yaml:"description"`
-	Keys        []string `yaml:"keys"` // PKIX PEM text, or a path relative to Policy.Dir
+	Keys        []string `yaml:"keys"` // PKIX PEM text, or "PATH sha256:FINGERPRINT"
+}
+
+// SigningRules are the policy's rules about sign-offs themselves.
+type SigningRules struct {
+	// AllowUnsigned lets a decision that no sign-off rule requires anyone
+	// to sign verify with no signature. Without it a policy with no
+	// sign-off rule is refused, and so is a record no rule fires for.
+	AllowUnsigned bool `yaml:"allow_unsigned"`
+	// AllowSharedSigners lets one key be listed under several roles, so one
+	// person can fill several roles. Without it that is refused: separation
+	// of duties.
+	AllowSharedSigners bool `yaml:"allow_shared_signers"`
+	// MaxAgeDays refuses, at verify time, sign-offs made more than this many
+	// days earlier; 0: no limit.
+	MaxAgeDays int `yaml:"max_age_days"`
+}
+
+// FingerprintPrefix starts a key's fingerprint in a policy: the hex SHA-256
+// of the key's PKIX DER encoding (the bytes inside a "PUBLIC KEY" PEM
+// block), so `openssl pkey -pubin -outform DER | sha256sum` shows it too.
+const FingerprintPrefix = "sha256:"
+
+// Fingerprint returns "sha256:" and the hex SHA-256 of PKIX DER bytes.
+func Fingerprint(der []byte) string {
+	sum := sha256.Sum256(der)
+	return FingerprintPrefix + hex.EncodeToString(sum[:])
+}
+
+// KeyEntry is one key of a role as the policy pins it: by its PEM text
+// (Path "") or by a file path and the fingerprint the file must have.
+type KeyEntry struct {
+	Fingerprint string // always set: "sha256:" + 64 hex digits
+	PEM         []byte // the inline PEM text; nil for a file entry
+	Path        string // the key file, relative to Policy.Dir; "" for inline
+}
+
+// parseKeyEntry reads one roles.ROLE.keys entry. A path alone is refused:
+// the policy's hash covers only its own bytes, so a key named only by path
+// could be swapped without changing the policy.
+func parseKeyEntry(k string) (KeyEntry, error) {
+	if isInlinePEM(k) {
+		der, err := pkixDER([]byte(k))
+		if err != nil {
+			return KeyEntry{}, err
+		}
+		return KeyEntry{Fingerprint: Fingerprint(der), PEM: []byte(k)}, nil
+	}
+	i := strings.LastIndex(k, " "+FingerprintPrefix)
+	if i < 0 {
+		if strings.HasPrefix(k, FingerprintPrefix) {
+			return KeyEntry{}, fmt.Errorf("fingerprint %q without the key file: write \"PATH %s...\", e.g. \"keys/alice.pub %s...\"", clipText(k), FingerprintPrefix, FingerprintPrefix)
+		}
+		return KeyEntry{}, fmt.Errorf("key file %q is not pinned: a path alone is not trust (the file could be replaced without changing this policy); paste the PEM text here, or write \"%s %s<fingerprint>\" (sluice keygen prints the fingerprint)", clipText(k), clipText(k), FingerprintPrefix)
+	}
+	path, fp := strings.TrimSpace(k[:i]), strings.TrimSpace(k[i+1:])
+	hexPart := strings.TrimPrefix(fp, FingerprintPrefix)
+	if len(hexPart) != 64 || strings.Trim(hexPart, "0123456789abcdef") != "" {
+		return KeyEntry{}, fmt.Errorf("fingerprint %q is not %s and 64 lowercase hex digits", clipText(fp), FingerprintPrefix)
+	}
+	if path == "" {
+		return KeyEntry{}, errors.New("the key file path before the fingerprint is empty")
+	}
+	return KeyEntry{Fingerprint: fp, Path: path}, nil
+}
+
+// pkixDER returns the DER of a single ed25519 "PUBLIC KEY" PEM block.
+// Messages never repeat the key text.
+func pkixDER(b []byte) ([]byte, error) {
+	block, rest := pem.Decode(b)
+	if block == nil || block.Type != "PUBLIC KEY" {
+		return nil, errors.New(`not a "PUBLIC KEY" PEM block`)
+	}
+	if len(strings.TrimSpace(string(rest))) > 0 {
+		return nil, errors.New("unexpected text after the PUBLIC KEY block (one key per entry)")
+	}
+	k, err := x509.ParsePKIXPublicKey(block.Bytes)
+	if err != nil {
+		return nil, errors.New("PUBLIC KEY block is not valid PKIX (SubjectPublicKeyInfo)")
+	}
+	if _, ok := k.(ed25519.PublicKey); !ok {
+		return nil, fmt.Errorf("PUBLIC KEY is %T, want ed25519", k)
+	}
+	return block.Bytes, nil
+}
+
+func clipText(s string) string {
+	if len(s) > 60 {
+		return s[:60] + "..."
+	}
+	return s
+}
+
+// KeyEntries returns role's keys as pinned by the policy. The policy was
+// checked when parsed, so every entry is valid.
+func (p *Policy) KeyEntries(role string) []KeyEntry {
+	r := p.Roles[role]
+	out := make([]KeyEntry, 0, len(r.Keys))
+	for _, k := range r.Keys {
+		e, err := parseKeyEntry(k)
+		if err == nil {
+			out = append(out, e)
+		}
+	}
+	return out
 }
 
 // KeyPEM returns the PEM bytes of every key of role, reading the entries
-// that are file paths (relative to p.Dir). It does not parse the PEM.
+// that are file paths (relative to p.Dir) and refusing a file whose key
+// does not have the fingerprint the policy pins. It does not parse the PEM
+// beyond that.
 func (p *Policy) KeyPEM(role string) ([][]byte, error) {
-	r, ok := p.Roles[role]
-	if !ok {
+	if _, ok := p.Roles[role]; !ok {
 		return nil, fmt.Errorf("policies: %s: no role %q", p.Source, role)
 	}
-	out := make([][]byte, 0, len(r.Keys))
-	for _, k := range r.Keys {
-		if isInlinePEM(k) {
-			out = append(out, []byte(k))
+	entries := p.KeyEntries(role)
+	out := make([][]byte, 0, len(entries))
+	for i, e := range entries {
+		if e.Path == "" {
+			out = append(out, e.PEM)
 			continue
 		}
-		b, err := os.ReadFile(p.keyPath(k))
+		b, err := os.ReadFile(p.keyPath(e.Path))
 		if err != nil {
-			return nil, fmt.Errorf("policies: %s: roles.%s.keys: %w", p.Source, role, err)
+			return nil, fmt.Errorf("policies: %s: roles.%s.keys[%d]: %w", p.Source, role, i, err)
+		}
+		der, err := pkixDER(b)
+		if err != nil {
+			return nil, fmt.Errorf("policies: %s: roles.%s.keys[%d]: key file %s: %v", p.Source, role, i, e.Path, err)
+		}
+		if got := Fingerprint(der); got != e.Fingerprint {
+			return nil, fmt.Errorf("policies: %s: roles.%s.keys[%d]: key file %s has fingerprint %s, but the policy pins %s: the key file was replaced",
+				p.Source, role, i, e.Path, got, e.Fingerprint)
 		}
 		out = append(out, b)
 	}
@@ -319,13 +439,13 @@ func Load(path string) (*Policy, error) {
 	}
 	p.Dir = filepath.Dir(path)
 	for _, role := range sortedKeys(p.Roles) {
-		for i, k := range p.Roles[role].Keys {
-			if isInlinePEM(k) {
+		for i, k := range p.KeyEntries(role) {
+			if k.Path == "" {
 				continue
 			}
-			if _, err := os.Stat(p.keyPath(k)); err != nil {
+			if _, err := os.Stat(p.keyPath(k.Path)); err != nil {
 				return nil, p.errorAt(data, path, []any{"roles", role, "keys", i},
-					fmt.Sprintf("key file %q: %v", k, errorsUnwrapPath(err)))
+					fmt.Sprintf("key file %q: %v", k.Path, errorsUnwrapPath(err)))
 			}
 		}
 	}
@@ -351,7 +471,11 @@ func errorsUnwrapPath(err error) error {
 // band outside [0,1]; an action other than refuse, hold, cap, warn; an unknown
 // family; a waiver or sign-off naming an undefined role; a sign-off rule
 // without a name, with a name used before, without roles, or whose when has
-// not exactly one condition; an unknown verdict; any number not finite.
+// not exactly one condition; an unknown verdict; any number not finite; a
+// key that is not pinned by content (inline PEM, or a path with its
+// sha256 fingerprint) or not an ed25519 PUBLIC KEY; one key under two roles
+// unless signing.allow_shared_signers; no sign-off rule unless
+// signing.allow_unsigned; a negative signing.max_age_days.
 func Parse(data []byte, source string) (*Policy, error) {
 	var p Policy
 	if err := strictyaml.Decode(data, source, &p); err != nil {
@@ -535,9 +659,36 @@ func (p *Policy) check() *problem {
 		}
 		for i, k := range p.Roles[role].Keys {
 			if strings.TrimSpace(k) == "" {
-				bad("key must be PEM text or a file path, got an empty string", "roles", role, "keys", i)
+				bad("key must be PEM text or \"PATH sha256:FINGERPRINT\", got an empty string", "roles", role, "keys", i)
+				continue
+			}
+			if _, err := parseKeyEntry(k); err != nil {
+				bad(err.Error(), "roles", role, "keys", i)
 			}
 		}
+	}
+	// Separation of duties: one key, one role, unless the policy says so.
+	holder := map[string]string{}
+	for _, role := range sortedKeys(p.Roles) {
+		for i, k := range p.Roles[role].Keys {
+			e, err := parseKeyEntry(k)
+			if err != nil {
+				continue
+			}
+			if other, ok := holder[e.Fingerprint]; ok && other != role && !p.Signing.AllowSharedSigners {
+				bad(fmt.Sprintf("key %s is also listed for role %q: one signer cannot fill two roles (separation of duties) unless signing.allow_shared_signers is true",
+					e.Fingerprint[:len(FingerprintPrefix)+16], other), "roles", role, "keys", i)
+			} else if ok && other == role {
+				bad(fmt.Sprintf("key %s is listed twice for role %q", e.Fingerprint[:len(FingerprintPrefix)+16], role), "roles", role, "keys", i)
+			}
+			holder[e.Fingerprint] = role
+		}
+	}
+	if len(p.Signoffs) == 0 && !p.Signing.AllowUnsigned {
+		bad("no sign-off rule: a policy that requires nobody to sign must say so with signing.allow_unsigned: true", "signoffs")
+	}
+	if p.Signing.MaxAgeDays < 0 {
+		bad("must not be negative (0: no limit)", "signing", "max_age_days")
 	}
 
 	names := map[string]int{}

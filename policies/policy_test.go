@@ -38,7 +38,7 @@ evidence:
 roles:
   analytics_lead: {}
   finance_partner:
-    keys: [keys/finance_partner.pem]
+    keys: ['keys/finance_partner.pem sha256:e2783178f9dd1b77a67ca60d0571731f8a87ac3480189607195e5590314608af']
 signoffs:
   - name: always
     roles: [finance_partner]
@@ -105,7 +105,7 @@ func TestParseRefusals(t *testing.T) {
 		{"unknown action on check", "holdout_mape: {on_warn: refuse}", "holdout_mape: {on_warn: ignore}", "evidence.checks.holdout_mape.on_warn", 18, "unknown action"},
 		{"waiver by undefined role", "    analytics_lead:\n      families", "    analyst:\n      families", "evidence.waivers.analyst", 20, `role "analyst" is not defined`},
 		{"waiver for unknown family", "families: [stability]", "families: [stabilty]", "evidence.waivers.analytics_lead.families[0]", 21, "unknown check family"},
-		{"empty key", "keys: [keys/finance_partner.pem]", "keys: ['']", "roles.finance_partner.keys[0]", 26, "empty"},
+		{"empty key", "keys: ['keys/finance_partner.pem sha256:e2783178f9dd1b77a67ca60d0571731f8a87ac3480189607195e5590314608af']", "keys: ['']", "roles.finance_partner.keys[0]", 26, "empty"},
 		{"sign-off by undefined role", "roles: [finance_partner]\n    when: {always", "roles: [cfo]\n    when: {always", "signoffs[0].roles[0]", 29, `role "cfo" is not defined`},
 		{"two conditions", "when: {always: true}", "when: {always: true, any_waiver: true}", "signoffs[0].when", 30, "found 2 (always, any_waiver)"},
 		{"no condition", "when: {always: true}", "when: {always: false}", "signoffs[0].when", 30, "found 0"},

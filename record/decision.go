@@ -8,7 +8,6 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"slices"
 
 	"sluice/gate"
 	"sluice/policies"
@@ -47,19 +46,23 @@ type DrawsInfo struct {
 // Decision is the decision record, decision.json. Its exact bytes are what
 // sign-offs sign; MarshalDecision is deterministic.
 type Decision struct {
-	Format       string           `json:"format"`
-	Tool         string           `json:"tool"`
-	Version      string           `json:"version"`
-	Seed         uint64           `json:"seed"`
-	KPI          string           `json:"kpi"`
-	AsOf         string           `json:"as_of"` // last week of the data
-	Channels     []string         `json:"channels"`
-	Horizon      int              `json:"horizon_weeks"`
-	Inputs       map[string]Input `json:"inputs"`
-	PolicySHA256 string           `json:"policy_sha256"`
-	Draws        DrawsInfo        `json:"draws"`
-	Evidence     map[string]int   `json:"evidence_summary"`
-	Proposal     Proposal         `json:"proposal"`
+	Format   string   `json:"format"`
+	Tool     string   `json:"tool"`
+	Version  string   `json:"version"`
+	Seed     uint64   `json:"seed"`
+	KPI      string   `json:"kpi"`
+	AsOf     string   `json:"as_of"` // last week of the data
+	Channels []string `json:"channels"`
+	Horizon  int      `json:"horizon_weeks"`
+	// Support is each channel's observed range of 4-week average weekly
+	// spend, in Channels order: the sign-off rule cut_below_support reads it,
+	// so verify can derive the required sign-offs from the record.
+	Support      []gate.SupportRange `json:"support"`
+	Inputs       map[string]Input    `json:"inputs"`
+	PolicySHA256 string              `json:"policy_sha256"`
+	Draws        DrawsInfo           `json:"draws"`
+	Evidence     map[string]int      `json:"evidence_summary"`
+	Proposal     Proposal            `json:"proposal"`
 	gate.Decision
 	// Forecast is what the decision expects over the horizon under the
 	// approved plan, in the form next quarter's reconciliation reads.
@@ -83,9 +86,14 @@ func MarshalDecision(d *Decision) ([]byte, error) {
 	return buf.Bytes(), nil
 }
 
-// ParseDecision reads a record strictly: unknown fields and a wrong format
-// are refused, naming the file.
+// ParseDecision reads a record strictly: unknown fields, a key given twice
+// or in two letter cases, a wrong format, and bytes other than those
+// MarshalDecision writes for the content are refused, naming the file and
+// the line and column.
 func ParseDecision(data []byte, source string) (*Decision, error) {
+	if err := checkKeys(data, source); err != nil {
+		return nil, err
+	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
 	var d Decision
@@ -97,6 +105,9 @@ func ParseDecision(data []byte, source string) (*Decision, error) {
 	}
 	if d.Format != DecisionFormat {
 		return nil, fmt.Errorf("%s: format %q is not %q", source, d.Format, DecisionFormat)
+	}
+	if err := checkCanonical(data, &d, source); err != nil {
+		return nil, err
 	}
 	return &d, nil
 }
@@ -139,57 +150,6 @@ func PolicyKeyring(p *policies.Policy) (Keyring, error) {
 		}
 	}
 	return ring, nil
-}
-
-// VerifyDecision checks a decision record against its sign-offs and the
-// policy, and returns every problem, one line each; none means verified.
-// It checks that the record parses, that the policy is the one the record
-// was made with, that every signature is valid for a key the policy lists
-// for the claimed role over the record's exact bytes, that every required
-// role signed, that every waiver was signed by a role the policy lets waive
-// that check, that the data (when dataSHA256 is not "") is the data the
-// record was made from, and that the verdict approves something.
-func VerifyDecision(recordBytes []byte, source string, signoffs []Signoff, p *policies.Policy, dataSHA256 string) []string {
-	d, err := ParseDecision(recordBytes, source)
-	if err != nil {
-		return []string{err.Error()}
-	}
-	var problems []string
-	if got := SHA256Hex(p.Raw); got != d.PolicySHA256 {
-		problems = append(problems, fmt.Sprintf("policy %s has sha256 %s, but the record was made with policy %s: the policy changed after the decision",
-			p.Source, short(got), short(d.PolicySHA256)))
-	}
-	if dataSHA256 != "" {
-		if in, ok := d.Inputs["data"]; !ok || in.SHA256 != dataSHA256 {
-			problems = append(problems, fmt.Sprintf("data has sha256 %s, but the record was made from %s (%s)",
-				short(dataSHA256), in.Path, short(in.SHA256)))
-		}
-	}
-	ring, err := PolicyKeyring(p)
-	if err != nil {
-		return append(problems, err.Error())
-	}
-	problems = append(problems, Problems(recordBytes, signoffs, ring)...)
-	roles, waivers := SignedRoles(recordBytes, signoffs, ring)
-	for _, req := range d.SignoffsRequired {
-		if !slices.Contains(roles, req.Role) {
-			problems = append(problems, fmt.Sprintf("missing sign-off: %s (rule %s: %s)", req.Role, req.Rule, req.Explanation))
-		}
-	}
-	for _, w := range waivers {
-		c, ok := findCheck(d, w.Waiver.Check)
-		if !ok {
-			problems = append(problems, fmt.Sprintf("waiver of %q by %s: the record has no such check", w.Waiver.Check, w.Role))
-			continue
-		}
-		if !p.Evidence.MayWaive(w.Role, c) {
-			problems = append(problems, fmt.Sprintf("waiver of %q by %s: the policy does not let %s waive it", w.Waiver.Check, w.Role, w.Role))
-		}
-	}
-	if d.Verdict == gate.Refuse {
-		problems = append(problems, "the decision is refuse: a refused decision cannot be verified as approved")
-	}
-	return problems
 }
 
 func findCheck(d *Decision, name string) (validation.Check, bool) {

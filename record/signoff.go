@@ -78,8 +78,17 @@ var (
 // encoding/json without HTML escaping. role must be a valid role name (see
 // [Sign]); it needs no quoting.
 func SignedPayloadType(role string, waivers []Waiver, signedAt time.Time) string {
+	return signedPayloadType(PayloadType, role, waivers, signedAt)
+}
+
+// WithdrawalType is the DSSE payload type of a withdrawal: a signer's
+// signed statement, over the same record bytes, that their sign-off in a
+// role no longer stands. It carries the role and the time like a sign-off.
+const WithdrawalType = "application/vnd.sluice.withdrawal+json"
+
+func signedPayloadType(base, role string, waivers []Waiver, signedAt time.Time) string {
 	var b strings.Builder
-	b.WriteString(PayloadType)
+	b.WriteString(base)
 	b.WriteString("; role=")
 	b.WriteString(role)
 	if !signedAt.IsZero() {
@@ -173,6 +182,10 @@ func VerifySignoff(record []byte, s Signoff, pub ed25519.PublicKey) error {
 // the payload equal to record, and the payload type equal to the one the
 // role, waivers and time give.
 func checkContent(record []byte, s Signoff) error {
+	return checkContentOf(PayloadType, record, s)
+}
+
+func checkContentOf(base string, record []byte, s Signoff) error {
 	if n := len(s.Envelope.Signatures); n != 1 {
 		return fmt.Errorf("the sign-off's envelope holds %d signatures, want 1", n)
 	}
@@ -180,12 +193,12 @@ func checkContent(record []byte, s Signoff) error {
 		return fmt.Errorf("%w (signed sha256 %s, now %s)", ErrRecordChanged, shortSum(s.Envelope.Payload), shortSum(record))
 	}
 	got := s.Envelope.PayloadType
-	if got == SignedPayloadType(s.Role, s.Waivers, s.SignedAt) {
+	if got == signedPayloadType(base, s.Role, s.Waivers, s.SignedAt) {
 		return nil
 	}
 	mt, params, err := mime.ParseMediaType(got)
 	switch {
-	case err != nil || mt != PayloadType:
+	case err != nil || mt != base:
 		return fmt.Errorf("%w: the envelope's payload type %q is not a sluice decision sign-off", ErrBindingChanged, got)
 	case params["role"] != s.Role:
 		return fmt.Errorf("%w: signed for role %q, but the sign-off claims role %q", ErrBindingChanged, params["role"], s.Role)
@@ -194,7 +207,7 @@ func checkContent(record []byte, s Signoff) error {
 	case params["waivers-sha256"] != digestOrEmpty(s.Waivers):
 		return fmt.Errorf("%w: the waivers differ from those that were signed", ErrBindingChanged)
 	}
-	return fmt.Errorf("%w: payload type %q, want %q", ErrBindingChanged, got, SignedPayloadType(s.Role, s.Waivers, s.SignedAt))
+	return fmt.Errorf("%w: payload type %q, want %q", ErrBindingChanged, got, signedPayloadType(base, s.Role, s.Waivers, s.SignedAt))
 }
 
 func timeOrEmpty(t time.Time) string {
@@ -265,6 +278,10 @@ func SignedRoles(record []byte, signoffs []Signoff, keys Keyring) (roles []strin
 type outcome struct{ problem string }
 
 func evaluate(record []byte, signoffs []Signoff, keys Keyring) []outcome {
+	return evaluateOf(PayloadType, record, signoffs, keys)
+}
+
+func evaluateOf(base string, record []byte, signoffs []Signoff, keys Keyring) []outcome {
 	roles := make([]string, 0, len(keys))
 	for r := range keys {
 		roles = append(roles, r)
@@ -282,7 +299,7 @@ func evaluate(record []byte, signoffs []Signoff, keys Keyring) []outcome {
 			fail("the policy has no role %q", s.Role)
 			continue
 		}
-		if err := checkContent(record, s); err != nil {
+		if err := checkContentOf(base, record, s); err != nil {
 			fail("%v", err)
 			continue
 		}
@@ -316,7 +333,7 @@ func evaluate(record []byte, signoffs []Signoff, keys Keyring) []outcome {
 			continue
 		}
 		rk := roleKey{s.Role, id}
-		if j, dup := seen[rk]; dup {
+		if j, dup := seen[rk]; dup && base == PayloadType { // one may withdraw, sign again and withdraw again
 			fail("repeats sign-off %d (same role, same key)", j+1)
 			continue
 		}
@@ -371,16 +388,81 @@ func AppendSignoff(recordPath string, s Signoff) error {
 		return fmt.Errorf("record: refusing to append: %w", err)
 	}
 	path := SignaturesPath(recordPath)
-	existing, err := ReadSignoffs(path)
-	if err != nil && !errors.Is(err, fs.ErrNotExist) {
+	file, err := ReadSignatures(path)
+	if errors.Is(err, fs.ErrNotExist) {
+		file, err = &Signatures{}, nil
+	}
+	if err != nil {
 		return err
 	}
-	for j, e := range existing {
+	for j, e := range file.Signoffs {
 		if e.Role == s.Role && e.KeyID == s.KeyID {
 			return fmt.Errorf("record: refusing to append: %s already holds sign-off %d for role %q by key %s", path, j+1, s.Role, s.KeyID)
 		}
 	}
-	data, err := MarshalSignoffs(append(existing, s))
+	file.Signoffs = append(file.Signoffs, s)
+	data, err := MarshalSignatures(file)
+	if err != nil {
+		return err
+	}
+	return atomicfile.Write(path, data, 0o644)
+}
+
+// Withdraw signs a withdrawal of the signer's sign-off in role over the
+// record's exact bytes, at time at (required: a withdrawal says when).
+func Withdraw(record []byte, key ed25519.PrivateKey, role string, at time.Time) (Signoff, error) {
+	if at.IsZero() {
+		return Signoff{}, errors.New("record: a withdrawal needs its time")
+	}
+	if err := checkRole(role); err != nil {
+		return Signoff{}, fmt.Errorf("record: role: %w", err)
+	}
+	at = time.Unix(at.Unix(), 0).UTC()
+	env, err := SignEnvelope(signedPayloadType(WithdrawalType, role, nil, at), record, key)
+	if err != nil {
+		return Signoff{}, err
+	}
+	return Signoff{Role: role, KeyID: env.Signatures[0].KeyID, SignedAt: at, Envelope: env}, nil
+}
+
+// WithdrawSignoff removes from the signatures file beside recordPath the
+// sign-off that w's signer made in w's role and records w in its place, so
+// the withdrawal is kept and shown, never silent. It refuses a withdrawal
+// whose signature does not verify with the key of the sign-off it
+// withdraws (only the signer can withdraw: pub is the signer's public
+// key, and both the withdrawal and the withdrawn sign-off must verify with
+// it), or when there is no such sign-off.
+func WithdrawSignoff(recordPath string, w Signoff, pub ed25519.PublicKey) error {
+	rec, err := os.ReadFile(recordPath)
+	if err != nil {
+		return fmt.Errorf("record: %w", err)
+	}
+	if err := checkContentOf(WithdrawalType, rec, w); err != nil {
+		return fmt.Errorf("record: refusing the withdrawal: %w", err)
+	}
+	path := SignaturesPath(recordPath)
+	file, err := ReadSignatures(path)
+	if err != nil {
+		return err
+	}
+	idx := -1
+	for j, e := range file.Signoffs {
+		if e.Role == w.Role && e.KeyID == w.KeyID {
+			idx = j
+		}
+	}
+	if idx < 0 {
+		return fmt.Errorf("record: %s holds no sign-off for role %q by key %s to withdraw", path, w.Role, w.KeyID)
+	}
+	if len(pub) != ed25519.PublicKeySize || !ed25519.Verify(pub, PAE(w.Envelope.PayloadType, w.Envelope.Payload), w.Envelope.Signatures[0].Sig) {
+		return errors.New("record: refusing the withdrawal: its signature does not verify")
+	}
+	if err := VerifySignoff(rec, file.Signoffs[idx], pub); err != nil {
+		return fmt.Errorf("record: refusing the withdrawal: sign-off %d is not by this key (%v)", idx+1, err)
+	}
+	file.Signoffs = slices.Delete(file.Signoffs, idx, idx+1)
+	file.Withdrawals = append(file.Withdrawals, w)
+	data, err := MarshalSignatures(file)
 	if err != nil {
 		return err
 	}
@@ -432,9 +514,32 @@ func ReadSignoffs(path string) ([]Signoff, error) {
 	return s, err
 }
 
-// ParseSignoffs parses the contents of a signatures file. Unknown fields are
-// refused, so a misspelt field is not silently dropped.
+// ParseSignoffs parses the contents of a signatures file and returns its
+// sign-offs (see [ParseSignatures] for the withdrawals too).
 func ParseSignoffs(data []byte) ([]Signoff, error) {
+	f, err := ParseSignatures(data)
+	if err != nil {
+		return nil, err
+	}
+	return f.Signoffs, nil
+}
+
+// Signatures is a signatures file: the sign-offs that stand, and the
+// withdrawals of sign-offs that no longer do.
+type Signatures struct {
+	Signoffs []Signoff
+	// Withdrawals are signed like sign-offs (role and time bound, over the
+	// record's bytes), with payload type [WithdrawalType]; no waivers.
+	Withdrawals []Signoff
+}
+
+// ParseSignatures parses the contents of a signatures file. Unknown fields,
+// and a key given twice or in two letter cases, are refused, so a misspelt
+// field is not silently dropped and no reader sees another file.
+func ParseSignatures(data []byte) (*Signatures, error) {
+	if l, c, msg := duplicateKey(data); msg != "" {
+		return nil, &ParseError{Line: l, Column: c, Msg: msg}
+	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
 	var w fileJSON
@@ -452,7 +557,7 @@ func ParseSignoffs(data []byte) ([]Signoff, error) {
 	if w.Signoffs == nil {
 		return nil, &ParseError{Field: "signoffs", Msg: "missing (an empty file has \"signoffs\": [])"}
 	}
-	out := make([]Signoff, len(w.Signoffs))
+	out := &Signatures{Signoffs: make([]Signoff, len(w.Signoffs))}
 	for i, ws := range w.Signoffs {
 		path := fmt.Sprintf("signoffs[%d].", i)
 		s, err := ws.decode(path)
@@ -462,27 +567,71 @@ func ParseSignoffs(data []byte) ([]Signoff, error) {
 		if err != nil {
 			return nil, err
 		}
-		out[i] = s
+		out.Signoffs[i] = s
+	}
+	for i, ws := range w.Withdrawals {
+		path := fmt.Sprintf("withdrawals[%d].", i)
+		s, err := ws.decode(path)
+		if err == nil {
+			err = validateSignoff(s, path)
+		}
+		if err == nil && s.Waivers != nil {
+			err = &ParseError{Field: path + "waivers", Msg: "a withdrawal waives nothing"}
+		}
+		if err == nil && s.SignedAt.IsZero() {
+			err = &ParseError{Field: path + "signed_at", Msg: "missing: a withdrawal states when it was made"}
+		}
+		if err != nil {
+			return nil, err
+		}
+		out.Withdrawals = append(out.Withdrawals, s)
 	}
 	return out, nil
+}
+
+// ReadSignatures reads a signatures file, like [ReadSignoffs].
+func ReadSignatures(path string) (*Signatures, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("record: %w", err)
+	}
+	s, err := ParseSignatures(data)
+	if pe, ok := err.(*ParseError); ok {
+		pe.File = path
+	}
+	return s, err
 }
 
 // MarshalSignoffs writes a signatures file: indented JSON, fields in a
 // fixed order, standard base64, a trailing newline. The same sign-offs
 // always give the same bytes, and parsing them gives the sign-offs back.
 func MarshalSignoffs(signoffs []Signoff) ([]byte, error) {
-	w := fileJSON{Format: SignaturesFormat, Signoffs: make([]signoffJSON, len(signoffs))}
-	for i, s := range signoffs {
-		if err := validateSignoff(s, fmt.Sprintf("signoffs[%d].", i)); err != nil {
-			return nil, fmt.Errorf("record: %w", err)
+	return MarshalSignatures(&Signatures{Signoffs: signoffs})
+}
+
+// MarshalSignatures writes a signatures file with its withdrawals.
+func MarshalSignatures(f *Signatures) ([]byte, error) {
+	w := fileJSON{Format: SignaturesFormat, Signoffs: make([]signoffJSON, len(f.Signoffs))}
+	wire := func(s Signoff, path string) (signoffJSON, error) {
+		if err := validateSignoff(s, path); err != nil {
+			return signoffJSON{}, fmt.Errorf("record: %w", err)
 		}
-		w.Signoffs[i] = signoffJSON{
-			Role:     s.Role,
-			KeyID:    s.KeyID,
-			SignedAt: timeOrEmpty(s.SignedAt),
-			Waivers:  s.Waivers,
-			Envelope: s.Envelope.wire(),
+		return signoffJSON{Role: s.Role, KeyID: s.KeyID, SignedAt: timeOrEmpty(s.SignedAt),
+			Waivers: s.Waivers, Envelope: s.Envelope.wire()}, nil
+	}
+	for i, s := range f.Signoffs {
+		j, err := wire(s, fmt.Sprintf("signoffs[%d].", i))
+		if err != nil {
+			return nil, err
 		}
+		w.Signoffs[i] = j
+	}
+	for i, s := range f.Withdrawals {
+		j, err := wire(s, fmt.Sprintf("withdrawals[%d].", i))
+		if err != nil {
+			return nil, err
+		}
+		w.Withdrawals = append(w.Withdrawals, j)
 	}
 	var buf bytes.Buffer
 	enc := json.NewEncoder(&buf)
@@ -495,8 +644,9 @@ func MarshalSignoffs(signoffs []Signoff) ([]byte, error) {
 }
 
 type fileJSON struct {
-	Format   string        `json:"format"`
-	Signoffs []signoffJSON `json:"signoffs"`
+	Format      string        `json:"format"`
+	Signoffs    []signoffJSON `json:"signoffs"`
+	Withdrawals []signoffJSON `json:"withdrawals,omitempty"`
 }
 
 type signoffJSON struct {

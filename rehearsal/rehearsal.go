@@ -327,8 +327,13 @@ func policyNames(p Problem) []string {
 // Merge combines the outcomes of shards of one rehearsal (same seed,
 // sizes and policies, run with Shard k/n for every k) into the result of
 // the unsharded run: every world once, in index order, summaries
-// recomputed. worlds is the unsharded run's world count.
-func Merge(seed uint64, sizes Sizes, policies []string, worlds int, parts [][]Outcome) (*Result, error) {
+// recomputed. worlds is the unsharded run's world count; shards is the N
+// all parts were run with (0 when unknown or mixed), used to name a
+// missing shard.
+func Merge(seed uint64, sizes Sizes, policies []string, worlds, shards int, parts [][]Outcome) (*Result, error) {
+	if worlds < 0 {
+		return nil, fmt.Errorf("rehearsal: %d worlds", worlds) // a forged shard file (found by FuzzRehearsalJSON)
+	}
 	res := &Result{Seed: seed, Sizes: sizes, Worlds: make([]Outcome, 0, worlds)}
 	seen := make([]bool, worlds)
 	for _, part := range parts {
@@ -346,10 +351,15 @@ func Merge(seed uint64, sizes Sizes, policies []string, worlds int, parts [][]Ou
 			res.Worlds = append(res.Worlds, o)
 		}
 	}
+	var missing []int
 	for i, ok := range seen {
 		if !ok {
-			return nil, fmt.Errorf("rehearsal: world %d is in no shard", i)
+			missing = append(missing, i)
 		}
+	}
+	if len(missing) > 0 {
+		return nil, fmt.Errorf("rehearsal: world %d is in no shard (%d of %d worlds missing); %s",
+			missing[0], len(missing), worlds, uncertainty.NameMissing(missing, shards))
 	}
 	slices.SortFunc(res.Worlds, func(a, b Outcome) int { return a.Index - b.Index })
 	res.summarize(policies)
@@ -363,7 +373,19 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	if err != nil {
 		return nil, &decision.Error{Stage: decision.StageInput, Err: err}
 	}
-	in := decision.Input{Panel: w.Panel, Design: dw, Plan: p.Plan, Lifts: worldLifts(w, p.Lifts)}
+	lifts := worldLifts(w, p.Lifts)
+	if len(lifts) > 0 {
+		// As propose does with --lifts: every fit of the world is calibrated
+		// with its lift tests.
+		rows := make([]model.Lift, len(lifts))
+		for i, l := range lifts {
+			rows[i] = model.Lift{Channel: l.ChannelIndex, From: l.From, To: l.To, Incremental: l.Incremental, StdError: l.StdError}
+		}
+		if dw, err = dw.WithLifts(rows); err != nil {
+			return nil, &decision.Error{Stage: decision.StageInput, Err: err}
+		}
+	}
+	in := decision.Input{Panel: w.Panel, Design: dw, Plan: p.Plan, Lifts: lifts}
 	prep, err := decision.Prepare(ctx, in, decision.Settings{Seed: w.Seed, Workers: s.Workers,
 		BootstrapDraws: s.WorldDraws, Replicates: s.Replicates})
 	if err != nil {

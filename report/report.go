@@ -57,6 +57,12 @@ type Input struct {
 	Gains   []float64   // gain of the approved plan under each draw, currency over the horizon
 	Holdout *Holdout    // may be nil
 	Title   string      // e.g. the company or brand; "" gives a generic title
+	// RecordSHA256 is the hex SHA-256 of the record file's exact bytes. The
+	// brief names it in one marked place, read by `sluice verify --brief`:
+	// <meta name="sluice-record-sha256" content="HEX"> in the head and the
+	// footer line "Rendered from decision record SHA-256 HEX"
+	// (record.BriefMetaName, record.BriefHashLabel). "" leaves both out.
+	RecordSHA256 string
 }
 
 // ErrNoRecord is returned when the input has no decision record.

@@ -16,16 +16,20 @@ import (
 
 // view is what the template reads: every figure already in words.
 type view struct {
-	Title     string
-	Facts     []string
-	Caution   string
-	Verdict   string // APPROVED, APPROVED IN PART, REFUSED
-	VerdictID string // approve, downsize, refuse
-	Sentence  string
-	Reasons   []string
-	Figures   []figure
-	RiskRows  []riskRow
-	Forecast  string
+	Title string
+	// RecordMeta and RecordLine bind the brief to its record (see
+	// Input.RecordSHA256); keep both in any redesign of the page.
+	RecordMeta template.HTML
+	RecordLine string
+	Facts      []string
+	Caution    string
+	Verdict    string // APPROVED, APPROVED IN PART, REFUSED
+	VerdictID  string // approve, downsize, refuse
+	Sentence   string
+	Reasons    []string
+	Figures    []figure
+	RiskRows   []riskRow
+	Forecast   string
 
 	SignWhat    string
 	Signoffs    []signRow
@@ -110,6 +114,13 @@ func newView(in Input) (*view, error) {
 	}
 	if in.Title != "" {
 		v.Title = in.Title + ": paid-media budget decision"
+	}
+	if h := in.RecordSHA256; h != "" {
+		if len(h) != 64 || strings.Trim(h, "0123456789abcdef") != "" {
+			return nil, fmt.Errorf("report: record SHA-256 %q is not 64 lowercase hex digits", h)
+		}
+		v.RecordMeta = template.HTML(`<meta name="` + record.BriefMetaName + `" content="` + h + `">`)
+		v.RecordLine = record.BriefHashLabel + h
 	}
 	if d.AsOf != "" {
 		v.Facts = append(v.Facts, "data to the week of "+d.AsOf)

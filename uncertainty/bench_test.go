@@ -144,3 +144,80 @@ func BenchmarkRefitEvaluation(b *testing.B) {
 		})
 	}
 }
+
+// A bootstrap of 200 replicates (full fit given, 2 workers) against 40 cold
+// multi-start fits (the spec's 6 starts each, 2 workers) on 156 weeks × 6
+// channels: the bootstrap must cost less than the cold fits.
+func BenchmarkBootstrapVsColdFits(b *testing.B) {
+	tr := benchTruth(156, 6)
+	sim, err := model.Simulate(tr)
+	if err != nil {
+		b.Fatal(err)
+	}
+	d, err := model.NewDesign(sim.Panel, tr.Spec())
+	if err != nil {
+		b.Fatal(err)
+	}
+	full, err := d.Fit(sim.Panel.KPI, model.FitSettings{Seed: 1, Workers: 2})
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.Run("bootstrap200", func(b *testing.B) {
+		for b.Loop() {
+			bs := &Bootstrap{Design: d, Y: sim.Panel.KPI, Draws: 200, Seed: 7, Full: full, Workers: 2}
+			if _, err := bs.Run(context.Background()); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	b.Run("bootstrap200warm", func(b *testing.B) {
+		for b.Loop() {
+			bs := &Bootstrap{Design: d, Y: sim.Panel.KPI, Draws: 200, Seed: 7, Full: full, Workers: 2, RefitStarts: 1}
+			if _, err := bs.Run(context.Background()); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	b.Run("coldfits40", func(b *testing.B) {
+		for b.Loop() {
+			for i := range 40 {
+				if _, err := d.Fit(sim.Panel.KPI, model.FitSettings{Seed: uint64(i), Workers: 2}); err != nil {
+					b.Fatal(err)
+				}
+			}
+		}
+	})
+}
+
+// A bootstrap of 1000 replicates after the full fit, 2 workers: 156 weeks ×
+// 6 channels (goal ≤ 5 s) and 312 × 12 (goal ≤ 60 s). Slow: run with
+// -bench Bootstrap1000 -benchtime 1x.
+func BenchmarkBootstrap1000(b *testing.B) {
+	for _, size := range [][2]int{{156, 6}, {312, 12}} {
+		tr := benchTruth(size[0], size[1])
+		sim, err := model.Simulate(tr)
+		if err != nil {
+			b.Fatal(err)
+		}
+		d, err := model.NewDesign(sim.Panel, tr.Spec())
+		if err != nil {
+			b.Fatal(err)
+		}
+		full, err := d.Fit(sim.Panel.KPI, model.FitSettings{Seed: 1, Workers: 2})
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.Run(fmt.Sprintf("%dx%d", size[0], size[1]), func(b *testing.B) {
+			var failed int
+			for b.Loop() {
+				bs := &Bootstrap{Design: d, Y: sim.Panel.KPI, Draws: 1000, Seed: 7, Full: full, Workers: 2}
+				dr, err := bs.Run(context.Background())
+				if err != nil {
+					b.Fatal(err)
+				}
+				failed = dr.Failed()
+			}
+			b.ReportMetric(float64(failed), "failed")
+		})
+	}
+}

@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"os"
 	"strconv"
 	"testing"
@@ -217,5 +218,56 @@ func TestAutoBlockLengthNumpy(t *testing.T) {
 		t.Logf("%s: m̂ %d, M %d", name, got.MHat, got.M)
 		checkRel(t, name+" b_SB", got.Stationary, want[i].BSB, 1e-9)
 		checkRel(t, name+" b_CB", got.Circular, want[i].BCB, 1e-9)
+	}
+}
+
+// The plug-in rule on AR(1) series of known coefficient ρ: the MSE-optimal
+// block length for the variance of a mean is (3n/2)^(1/3) (2ρ/(1−ρ²))^(2/3)
+// (Politis & White 2004, the AR(1) case of b = (2G²/D)^(1/3) n^(1/3) with
+// G/g(0) = 2ρ/(1−ρ²), D = (4/3) g(0)², derived by hand from the AR(1)
+// autocovariances γ(k) = γ(0) ρ^|k|). The estimate ρ̂ has SD about
+// √((1−ρ²)/n); the tolerance allows 4 SD of ρ̂ propagated through the rule.
+func TestRegressionBlockLengthAR1(t *testing.T) {
+	const n = 4000
+	for _, rho := range []float64{0.1, 0.3, 0.5, 0.6} {
+		rng := rand.New(rand.NewPCG(11, uint64(rho*100)))
+		e := make([]float64, n)
+		for i := range e {
+			e[i] = rng.NormFloat64()
+			if i > 0 {
+				e[i] += rho * e[i-1]
+			}
+		}
+		got := RegressionBlockLength(e)
+		want := func(r float64) float64 { return math.Cbrt(1.5*n) * math.Pow(2*r/(1-r*r), 2.0/3) }
+		sd := math.Sqrt((1 - rho*rho) / n)
+		lo, hi := want(rho-4*sd), want(rho+4*sd)
+		if got.Rule < lo || got.Rule > hi {
+			t.Errorf("rho %.1f: rule %.3f, closed form %.3f (allowed %.3f..%.3f)", rho, got.Rule, want(rho), lo, hi)
+		}
+		if math.Abs(got.Lag1-rho) > 4*sd {
+			t.Errorf("rho %.1f: lag-1 estimate %.4f", rho, got.Lag1)
+		}
+		// n = 4000: cap ⌈2·4000^(1/3)⌉ = 32 (computed by hand), above every rule value here.
+		if got.Cap != 32 || got.Capped || got.Length != math.Ceil(got.Rule) {
+			t.Errorf("rho %.1f: %+v", rho, got)
+		}
+	}
+	// White noise: |ρ̂| within 2/√156 = 0.16 gives a rule of at most
+	// (234)^(1/3)·(0.32/0.974)^(2/3) = 2.93 (by hand), so a length ≤ 3. A strongly dependent series at n = 156
+	// binds the cap ⌈2·156^(1/3)⌉ = 11 (computed by hand) and says so.
+	rng := rand.New(rand.NewPCG(3, 4))
+	e := make([]float64, 156)
+	for i := range e {
+		e[i] = rng.NormFloat64()
+	}
+	if b := RegressionBlockLength(e); b.Length > 3 || b.Capped {
+		t.Errorf("white noise: %+v", b)
+	}
+	for i := 1; i < len(e); i++ {
+		e[i] += 0.95 * e[i-1]
+	}
+	if b := RegressionBlockLength(e); !b.Capped || b.Length != 11 || b.Rule <= 11 {
+		t.Errorf("AR(0.95), n=156: %+v, want capped at 11", b)
 	}
 }

@@ -5,6 +5,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"strings"
 	"sync"
 	"testing"
@@ -229,5 +230,107 @@ func TestBootstrapSettingsErrors(t *testing.T) {
 		if _, err := b.Run(context.Background()); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%+v: error %v, want %q", c.b, err, c.want)
 		}
+	}
+}
+
+// The header records the inflation √(n/(n−p)) — for testdata/coverage_truth.yaml
+// n = 156 and p = 23 counted by hand (intercept, trend, 4 season terms, 2
+// controls; 3 Hill channels × 4 parameters; 1 exponential channel × 3), so
+// √(156/133) — the refit starts, the block rule and the full fit's priors;
+// and replicate i's KPI is ŷ + c·e*, e* the moving-block resample of the
+// full fit's residuals from Stream(seed, i), rebuilt here from the parts.
+func TestInflationAndHeader(t *testing.T) {
+	w := testWorld(t, 3)
+	b := &Bootstrap{Design: w.d, Y: w.sim.Panel.KPI, Draws: 2, Seed: 5, Workers: 1}
+	d, err := b.Run(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
+	h := d.Header
+	want := math.Sqrt(156.0 / 133.0)
+	if math.Abs(h.Inflation-want) > 1e-15 || h.RefitStarts != DefaultRefitStarts {
+		t.Errorf("inflation %v (want %v), refit starts %d", h.Inflation, want, h.RefitStarts)
+	}
+	if !h.PriorDraws {
+		t.Error("prior_draws not recorded")
+	}
+	if h.BlockRule == nil || h.BlockRule.Length != h.BlockLength || !h.BlockLengthAuto {
+		t.Errorf("block rule %+v, block length %v", h.BlockRule, h.BlockLength)
+	}
+	if len(h.FullFit.Priors) != 4 || !h.FullFit.Priors[0].ROIDefault || !(h.FullFit.NoiseSD > 0) || !(h.FullFit.Penalty > 0) {
+		t.Errorf("full fit priors %+v, noise SD %v, penalty %v", h.FullFit.Priors, h.FullFit.NoiseSD, h.FullFit.Penalty)
+	}
+	full, err := w.d.Fit(w.sim.Panel.KPI, model.FitSettings{Seed: 5, Starts: w.d.Spec.Starts, Workers: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rf := refitter{full: full, res: Resampler{Method: MovingBlock, BlockLength: h.BlockLength}, seed: 5, inflation: h.Inflation}
+	ystar, eb := make([]float64, w.d.N), make([]float64, w.d.N)
+	rf.kpi(1, ystar, eb)
+	e := Resampler{Method: MovingBlock, BlockLength: h.BlockLength}.Residuals(make([]float64, w.d.N), full.Residuals, Stream(5, 1))
+	var ss float64
+	for t2 := range ystar {
+		if d := ystar[t2] - full.Fitted[t2] - want*e[t2]; math.Abs(d) > 1e-9*math.Abs(ystar[t2]) {
+			t.Fatalf("week %d: y* %v, ŷ + c·e* %v", t2, ystar[t2], full.Fitted[t2]+want*e[t2])
+		}
+		ss += e[t2] * e[t2]
+	}
+	if ss == 0 {
+		t.Fatal("resampled residuals are all zero")
+	}
+}
+
+// Redrawn prior centres follow the priors: over 20000 draws the decay
+// centre's mean and SD match N(0.3, 0.3²) and log κ's match N(log 2, 0.5²)
+// to within 4 standard errors (SE of a mean sd/√n, of an SD about
+// sd/√(2n), normal theory); a nil prior stays nil.
+func TestPerturbPriors(t *testing.T) {
+	shape := model.Normal{Mean: 1.5, SD: 0.75}
+	p := model.Priors{{Decay: model.Normal{Mean: 0.3, SD: 0.3}, HalfSaturation: model.LogNormal{Median: 2, LogSD: 0.5},
+		Shape: &shape, ROI: model.Normal{Mean: 0, SD: 4}}}
+	const n = 20000
+	rng := Stream(9, 0)
+	var sd, sd2, sk, sk2 float64
+	for range n {
+		q := perturbPriors(p, rng)
+		d, k := q[0].Decay.Mean, math.Log(q[0].HalfSaturation.Median)
+		sd, sd2, sk, sk2 = sd+d, sd2+d*d, sk+k, sk2+k*k
+		if q[0].Decay.SD != 0.3 || q[0].Shape == p[0].Shape {
+			t.Fatal("an SD changed, or the shape prior is shared with the input")
+		}
+	}
+	check := func(name string, s, s2, mean, sdev float64) {
+		m := s / n
+		v := math.Sqrt(s2/n - m*m)
+		if math.Abs(m-mean) > 4*sdev/math.Sqrt(n) || math.Abs(v-sdev) > 4*sdev/math.Sqrt(2*n) {
+			t.Errorf("%s: mean %.4f SD %.4f, want %.4f and %.4f", name, m, v, mean, sdev)
+		}
+	}
+	check("decay", sd, sd2, 0.3, 0.3)
+	check("log half saturation", sk, sk2, math.Log(2), 0.5)
+	if p[0].Decay.Mean != 0.3 || shape.Mean != 1.5 {
+		t.Error("the input priors were changed")
+	}
+	if perturbPriors(nil, rng) != nil {
+		t.Error("nil priors became non-nil")
+	}
+}
+
+// Redrawn centres outside a parameter's box are moved onto it, an ROI
+// centre below zero to zero; centres inside stay.
+func TestClampPriors(t *testing.T) {
+	spec := model.NewSpec([]string{"a", "b"}, nil)
+	sh := model.Normal{Mean: 9, SD: 1}
+	sh2 := model.Normal{Mean: 2, SD: 1}
+	p := model.Priors{
+		{Decay: model.Normal{Mean: -0.2, SD: 0.3}, HalfSaturation: model.LogNormal{Median: 100, LogSD: 1}, Shape: &sh, ROI: model.Normal{Mean: -3, SD: 1}},
+		{Decay: model.Normal{Mean: 0.4, SD: 0.3}, HalfSaturation: model.LogNormal{Median: 0.5, LogSD: 1}, Shape: &sh2, ROI: model.Normal{Mean: 2, SD: 1}},
+	}
+	q := clampPriors(p, spec)
+	if a := q[0]; a.Decay.Mean != 0 || a.HalfSaturation.Median != 10 || a.Shape.Mean != 3 || a.ROI.Mean != 0 {
+		t.Errorf("outside the box: %+v, shape %v; want decay 0, half saturation 10, shape 3, ROI 0", a, a.Shape.Mean)
+	}
+	if b := q[1]; b.Decay.Mean != 0.4 || b.HalfSaturation.Median != 0.5 || b.Shape.Mean != 2 || b.ROI.Mean != 2 {
+		t.Errorf("inside the box changed: %+v", b)
 	}
 }

@@ -35,24 +35,34 @@ type Draws struct {
 
 // Header is line 1 of a draws file: everything a replicate depends on.
 type Header struct {
-	Format          int       `json:"sluice_draws"`
-	ToolVersion     string    `json:"tool_version"`
-	Seed            uint64    `json:"seed"`
-	Method          Method    `json:"method"`
-	BlockLength     float64   `json:"block_length"`      // as used; 0 for wild
-	BlockLengthAuto bool      `json:"block_length_auto"` // Politis–White on the full fit's residuals
-	Draws           int       `json:"draws"`             // replicates of the whole run, all shards
-	Shard           string    `json:"shard"`             // "K/N"
-	Inputs          Inputs    `json:"inputs"`
-	Model           ModelInfo `json:"model"`
-	FullFit         FullFit   `json:"full_fit"`
+	Format          int     `json:"sluice_draws"`
+	ToolVersion     string  `json:"tool_version"`
+	Seed            uint64  `json:"seed"`
+	Method          Method  `json:"method"`
+	BlockLength     float64 `json:"block_length"`      // as used; 0 for wild
+	BlockLengthAuto bool    `json:"block_length_auto"` // chosen by RegressionBlockLength on the full fit's residuals
+	// BlockRule is the automatic rule's working (nil when the length was given or for wild).
+	BlockRule *RegressionBlock `json:"block_rule,omitempty"`
+	// Inflation is the factor √(n/(n−p)) the resampled residuals are scaled by.
+	Inflation float64 `json:"residual_inflation,omitempty"`
+	// PriorDraws is set when every replicate refits under prior centres
+	// redrawn from the priors (randomized maximum likelihood; Bootstrap).
+	PriorDraws bool `json:"prior_draws,omitempty"`
+	// RefitStarts is the number of starts of each replicate's refit.
+	RefitStarts int       `json:"refit_starts,omitempty"`
+	Draws       int       `json:"draws"` // replicates of the whole run, all shards
+	Shard       string    `json:"shard"` // "K/N"
+	Inputs      Inputs    `json:"inputs"`
+	Model       ModelInfo `json:"model"`
+	FullFit     FullFit   `json:"full_fit"`
 }
 
 // Inputs are the content hashes (SHA-256, lowercase hex) of the files the
 // run was made from; SpecSHA256 is empty when no spec file was used.
 type Inputs struct {
-	DataSHA256 string `json:"data_sha256"`
-	SpecSHA256 string `json:"spec_sha256"`
+	DataSHA256  string `json:"data_sha256"`
+	SpecSHA256  string `json:"spec_sha256"`
+	LiftsSHA256 string `json:"lifts_sha256,omitempty"` // the lift tests the fits were calibrated with; absent without
 }
 
 // ModelInfo is the model structure the parameters of every replicate refer
@@ -87,6 +97,13 @@ type FullFit struct {
 	Params model.Params `json:"params"`
 	SSE    float64      `json:"sse"`
 	Status string       `json:"status"`
+	// Priors are the priors of the fit and of every refit (absent for a
+	// plain least-squares fit), NoiseSD the σ that weighed them and the
+	// lift rows, Penalty the priors' part of the fit's objective.
+	Priors    model.Priors `json:"priors,omitempty"`
+	NoiseSD   float64      `json:"noise_sd,omitempty"`
+	Penalty   float64      `json:"penalty,omitempty"`
+	LiftTests int          `json:"lift_tests,omitempty"` // lift tests in the likelihood
 }
 
 // Replicate is one bootstrap refit. A failed replicate has no parameters,
@@ -613,8 +630,8 @@ func Merge(parts []*Draws) (*Draws, error) {
 		}
 	}
 	if len(missing) > 0 {
-		return nil, fmt.Errorf("uncertainty: merge: %d of %d replicates are in none of the files (first missing: %d); a shard is missing",
-			len(missing), h.Draws, missing[0])
+		return nil, fmt.Errorf("uncertainty: merge: %d of %d replicates are in none of the files (first missing: %d); %s",
+			len(missing), h.Draws, missing[0], NameMissing(missing, commonShardCount(parts)))
 	}
 	out.Replicates = make([]Replicate, 0, h.Draws)
 	next := make([]int, len(parts))
@@ -624,6 +641,20 @@ func Merge(parts []*Draws) (*Draws, error) {
 		next[p]++
 	}
 	return out, nil
+}
+
+// commonShardCount is the N of the parts' shards K/N when they all share
+// it, else 0.
+func commonShardCount(parts []*Draws) int {
+	n := 0
+	for _, d := range parts {
+		s, err := ParseShard(d.Header.Shard)
+		if err != nil || (n != 0 && s.N != n) {
+			return 0
+		}
+		n = s.N
+	}
+	return n
 }
 
 // headerKey is the header's bytes without its shard: what the parts of one

@@ -55,7 +55,7 @@ func TestDrawsFormat(t *testing.T) {
 	raw := encode(t, tinyDraws(1, 1))
 	lines := strings.Split(strings.TrimSuffix(string(raw), "\n"), "\n")
 	want := []string{
-		`{"sluice_draws":1,"tool_version":"test","seed":9,"method":"block","block_length":2.5,"block_length_auto":true,"draws":3,"shard":"1/1","inputs":{"data_sha256":"` + strings.Repeat("ab", 32) + `","spec_sha256":""},"model":{"weeks":60,"channels":[{"name":"search","adstock":"geometric","saturation":"hill","decay":[0,0.85],"half_saturation":[0.3,10],"shape":[1,3],"mean_spend":1000}],"controls":[],"fixed":["intercept","trend"],"period_weeks":52.18,"horizon_weeks":13,"starts":6},"full_fit":{"params":{"channels":[{"decay":0.3,"half_saturation":1.1,"shape":1.5,"beta":5000}],"fixed":[100,2.5]},"sse":12.5,"status":"converged"}}`,
+		`{"sluice_draws":1,"tool_version":"test","seed":9,"method":"block","block_length":2.5,"block_length_auto":true,"draws":3,"shard":"1/1","inputs":{"data_sha256":"` + strings.Repeat("ab", 32) + `","spec_sha256":""},"model":{"weeks":60,"channels":[{"name":"search","adstock":"geometric","saturation":"hill","decay":[0,0.85],"half_saturation":[0.05,10],"shape":[1,3],"mean_spend":1000}],"controls":[],"fixed":["intercept","trend"],"period_weeks":52.18,"horizon_weeks":13,"starts":6},"full_fit":{"params":{"channels":[{"decay":0.3,"half_saturation":1.1,"shape":1.5,"beta":5000}],"fixed":[100,2.5]},"sse":12.5,"status":"converged"}}`,
 		`{"index":0,"params":{"channels":[{"decay":0.3,"half_saturation":1.1,"shape":1.5,"beta":4900.25}],"fixed":[100,2.5]},"sse":11,"attempts":1,"failed":false}`,
 		`{"index":1,"failed":true,"reason":"warm refit: no further progress"}`,
 		`{"index":2,"params":{"channels":[{"decay":0.3,"half_saturation":1.1,"shape":1.5,"beta":1e-7}],"fixed":[100,2.5]},"sse":0.125,"attempts":3,"failed":false}`,
@@ -198,7 +198,8 @@ func TestMergeErrors(t *testing.T) {
 		want  string
 	}{
 		{"none", nil, "no draws files given"},
-		{"missing", []*Draws{a, c}, "1 of 3 replicates are in none of the files (first missing: 1)"},
+		{"missing", []*Draws{a, c}, "1 of 3 replicates are in none of the files (first missing: 1); shard 2/3 is missing"},
+		{"missing, mixed split", []*Draws{a, h2}, "1 of 3 replicates are in none of the files (first missing: 2); a shard is missing"},
 		{"twice", []*Draws{a, b, c, b}, "replicate 1 is in both p2.jsonl and p2.jsonl"},
 		{"other seed", []*Draws{a, seed, c}, "p2.jsonl is not from the same run as p1.jsonl (seed 10, not 9)"},
 	} {

@@ -2,6 +2,7 @@ package uncertainty
 
 import (
 	"fmt"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -68,4 +69,28 @@ func (s Shard) String() string {
 		return "1/1"
 	}
 	return strconv.Itoa(s.K) + "/" + strconv.Itoa(s.N)
+}
+
+// NameMissing names the shards of a split into n that hold the missing
+// indexes (replicate or world i is in shard i%n + 1), for a merge's error:
+// "shard 3/4 is missing", "shards 2/8, 5/8 are missing". With n < 2 (the
+// parts were split differently, or not at all) it says "a shard is missing".
+func NameMissing(missing []int, n int) string {
+	if n < 2 || len(missing) == 0 {
+		return "a shard is missing"
+	}
+	var ks []int
+	for _, i := range missing {
+		ks = append(ks, i%n+1)
+	}
+	slices.Sort(ks)
+	ks = slices.Compact(ks)
+	names := make([]string, len(ks))
+	for j, k := range ks {
+		names[j] = Shard{K: k, N: n}.String()
+	}
+	if len(names) == 1 {
+		return "shard " + names[0] + " is missing"
+	}
+	return "shards " + strings.Join(names, ", ") + " are missing"
 }

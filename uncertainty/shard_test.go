@@ -135,3 +135,26 @@ func TestShardArithmetic(t *testing.T) {
 		}
 	}
 }
+
+// NameMissing against shards worked out by hand from the definition (index
+// i is in shard i%N + 1): with N = 4 and 10 replicates, shard 3/4 holds
+// 2, 6; shard 4/4 holds 3, 7.
+func TestNameMissing(t *testing.T) {
+	for _, c := range []struct {
+		missing []int
+		n       int
+		want    string
+	}{
+		{[]int{2, 6}, 4, "shard 3/4 is missing"},
+		{[]int{7, 3, 2, 6}, 4, "shards 3/4, 4/4 are missing"},
+		{[]int{0}, 2, "shard 1/2 is missing"},
+		{[]int{11, 4}, 8, "shards 4/8, 5/8 are missing"},
+		{[]int{1}, 1, "a shard is missing"},
+		{[]int{1}, 0, "a shard is missing"},
+		{nil, 4, "a shard is missing"},
+	} {
+		if got := NameMissing(c.missing, c.n); got != c.want {
+			t.Errorf("NameMissing(%v, %d) = %q, want %q", c.missing, c.n, got, c.want)
+		}
+	}
+}

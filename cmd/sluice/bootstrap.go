@@ -17,6 +17,7 @@ import (
 	"golang.org/x/term"
 
 	"sluice/internal/atomicfile"
+	"sluice/model"
 	"sluice/uncertainty"
 )
 
@@ -30,7 +31,8 @@ func bootstrapCommand() *cli.Command {
 		Flags: append(modelFlags(),
 			&cli.IntFlag{Name: "draws", Value: uncertainty.DefaultDraws, Usage: "replicates of the whole run (all shards)"},
 			&cli.StringFlag{Name: "method", Value: string(uncertainty.MovingBlock), Usage: "residual resampling: block (moving-block), stationary or wild"},
-			&cli.StringFlag{Name: "block-length", Value: "auto", Usage: "block length (mean length for stationary): auto (Politis–White on the full fit's residuals) or a number"},
+			&cli.StringFlag{Name: "block-length", Value: "auto", Usage: "block length (mean length for stationary): auto (AR(1) plug-in rule on the full fit's residuals, capped) or a number"},
+			&cli.IntFlag{Name: "refit-starts", Value: uncertainty.DefaultRefitStarts, Usage: "starts of each replicate's refit: the warm start, then seeded random probes (1: warm only, the cheapest)"},
 			&cli.StringFlag{Name: "shard", Value: "1/1", Usage: "compute only shard K of N: replicates i with i % N == K-1"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress bar and no summary line"},
 			&cli.StringFlag{Name: "out", Usage: "draws file to write (JSON Lines)"},
@@ -67,8 +69,12 @@ func bootstrapCommand() *cli.Command {
 			ctx, stop := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)
 			defer stop()
 			quiet := o.Bool("quiet")
+			rs := o.Int("refit-starts")
+			if rs < 1 || rs > 200 {
+				return withHint(fmt.Errorf("--refit-starts %d must be between 1 and 200", rs), "1 is the warm start alone; the default is %d", uncertainty.DefaultRefitStarts)
+			}
 			b := &uncertainty.Bootstrap{Design: in.Design, Y: in.Panel.KPI, Method: method, BlockLength: bl,
-				Draws: draws, Seed: in.Seed, Shard: shard, Workers: in.Workers}
+				Draws: draws, Seed: in.Seed, Shard: shard, Workers: in.Workers, RefitStarts: rs}
 			bar := progressBar(c, quiet)
 			if bar != nil {
 				b.Progress = bar.update
@@ -82,7 +88,7 @@ func bootstrapCommand() *cli.Command {
 				return err
 			}
 			d.Header.ToolVersion = version
-			d.Header.Inputs = uncertainty.Inputs{DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256}
+			d.Header.Inputs = uncertainty.Inputs{DataSHA256: in.DataSHA256, SpecSHA256: in.SpecSHA256, LiftsSHA256: in.LiftsSHA256}
 			if err := writeDraws(out, d); err != nil {
 				return err
 			}
@@ -123,7 +129,7 @@ func reportDraws(stdout, stderr io.Writer, path string, d *uncertainty.Draws, qu
 		if h.Method != uncertainty.Wild {
 			bl = fmt.Sprintf("%.3g", h.BlockLength)
 			if h.BlockLengthAuto {
-				bl += " (Politis–White)"
+				bl += " (AR(1) plug-in rule)"
 			}
 		}
 		fmt.Fprintf(stdout, "wrote %s: %d replicates (shard %s of %d), %d failed; %s bootstrap, block length %s, seed %d\n",
@@ -133,6 +139,47 @@ func reportDraws(stdout, stderr io.Writer, path string, d *uncertainty.Draws, qu
 		fmt.Fprintf(stderr, "warning: %d of %d refits did not converge; they are kept in %s with \"failed\": true and their reasons, and left out of every summary\n",
 			failed, len(d.Replicates), path)
 	}
+	if !quiet {
+		fmt.Fprintf(stdout, "residuals inflated by %.4g (sqrt(n/(n-p))); %d starts per refit; priors: %s; lift tests in the fit: %d\n",
+			h.Inflation, h.RefitStarts, priorWords(h.FullFit.Priors), h.FullFit.LiftTests)
+		tw := tabwriter.NewWriter(stdout, 0, 0, 2, ' ', 0)
+		fmt.Fprintln(tw, "channel\treplicates on a bound: decay\thalf saturation\tshape\tany")
+		for _, b := range d.OnBound() {
+			fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\n", b.Channel, shareWord(b.Decay), shareWord(b.HalfSaturation), shareWord(b.Shape), shareWord(b.Any))
+		}
+		tw.Flush()
+	}
+	for _, n := range d.Notes() {
+		if strings.Contains(n.Text, "refits failed") && failed > 0 {
+			// The failure count is said above; keep the hint.
+			fmt.Fprintf(stderr, "hint: %s\n", n.Hint)
+			continue
+		}
+		printNote(stderr, n)
+	}
+}
+
+// shareWord prints a bound share; -1 (fixed parameter) and 0 for a
+// parameter the channel does not have print as "-".
+func shareWord(v float64) string {
+	if v < 0 {
+		return "fixed"
+	}
+	return fmt.Sprintf("%.0f%%", 100*v)
+}
+
+// priorWords says which priors the fit used.
+func priorWords(p model.Priors) string {
+	if p == nil {
+		return "none (least squares)"
+	}
+	set := 0
+	for _, c := range p {
+		if !c.ROIDefault {
+			set++
+		}
+	}
+	return fmt.Sprintf("defaults, ROI priors set for %d of %d channels", set, len(p))
 }
 
 // replicateBar draws a one-line progress bar: replicates done, rate and

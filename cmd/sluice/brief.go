@@ -1,16 +1,18 @@
 package main
 
 import (
+	"bytes"
 	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
+	"slices"
 	"time"
 
 	"github.com/urfave/cli/v2"
 
-	"sluice/policies"
+	"sluice/internal/atomicfile"
 	"sluice/record"
 	"sluice/report"
 	"sluice/uncertainty"
@@ -56,25 +58,13 @@ func newBriefData(run *decisionRun, title string) *briefData {
 	return bd
 }
 
-// writeBrief writes DIR/brief.json and DIR/report.html for a fresh
-// decision (nobody has signed yet) and returns the brief's path.
-func writeBrief(dir string, run *decisionRun, title string) (string, error) {
-	bd := newBriefData(run, title)
-	if err := writeJSON(filepath.Join(dir, "brief.json"), bd); err != nil {
-		return "", err
-	}
-	path := filepath.Join(dir, "report.html")
-	return path, report.Write(path, report.Input{Record: run.rec, Curves: bd.Curves, Gains: bd.Gains,
-		Holdout: bd.Holdout, Title: title})
-}
-
 func reportCommand() *cli.Command {
 	return &cli.Command{
 		Name:  "report",
 		Usage: "render the decision brief (report.html) again, showing who has signed since",
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "record", Usage: "the decision record, e.g. DIR/decision.json (brief.json must lie beside it)"},
-			&cli.StringFlag{Name: "policy", Usage: "policy whose keys decide which signatures count (default: show every role with a valid-looking envelope)"},
+			&cli.StringFlag{Name: "policy", Usage: "policy whose keys and rules decide which sign-offs count (default: the policy file the record names)"},
 			&cli.StringFlag{Name: "out", Usage: "brief to write; default report.html beside the record"},
 		},
 		Action: func(c *cli.Context) error {
@@ -91,27 +81,32 @@ func reportCommand() *cli.Command {
 				return err
 			}
 			dir := filepath.Dir(path)
-			raw, err := os.ReadFile(filepath.Join(dir, "brief.json"))
+			if err := atomicfile.CheckSet(dir, filepath.Base(path), "brief.json"); err != nil {
+				return withHint(err, "run sluice propose again to write a complete decision")
+			}
+			bd, err := readBriefData(path, body)
 			if err != nil {
-				return withHint(err, "brief.json is written by sluice propose beside decision.json")
+				return err
 			}
-			var bd briefData
-			if err := json.Unmarshal(raw, &bd); err != nil {
-				return fmt.Errorf("%s: %v", filepath.Join(dir, "brief.json"), err)
-			}
-			if bd.RecordSHA256 != record.SHA256Hex(body) {
-				return fmt.Errorf("%s was made for another record than %s (the record changed after the decision)", filepath.Join(dir, "brief.json"), path)
-			}
-			signed, err := signedRoles(path, body, c.String("policy"))
+			signed, err := signedRoles(path, body, rec, c.String("policy"))
 			if err != nil {
 				return err
 			}
 			out := c.String("out")
-			if out == "" {
+			in := report.Input{Record: rec, Signed: signed, Curves: bd.Curves, Gains: bd.Gains,
+				Holdout: bd.Holdout, Title: bd.Title, RecordSHA256: record.SHA256Hex(body)}
+			if out == "" || filepath.Clean(out) == filepath.Join(dir, "report.html") {
+				// The brief of the set: rewritten as part of it.
 				out = filepath.Join(dir, "report.html")
-			}
-			if err := report.Write(out, report.Input{Record: rec, Signed: signed, Curves: bd.Curves, Gains: bd.Gains,
-				Holdout: bd.Holdout, Title: bd.Title}); err != nil {
+				var page bytes.Buffer
+				if err := report.Render(&page, in); err != nil {
+					return err
+				}
+				if err := atomicfile.WriteSet(dir, []atomicfile.File{{Name: "report.html", Data: page.Bytes(), Perm: 0o644}},
+					atomicfile.SetOptions{Keep: true}); err != nil {
+					return err
+				}
+			} else if err := report.Write(out, in); err != nil {
 				return err
 			}
 			fmt.Fprintf(c.App.Writer, "wrote %s (%d of %d required roles signed)\n", out, countRequired(rec, signed), len(rec.SignoffsRequired))
@@ -120,26 +115,75 @@ func reportCommand() *cli.Command {
 	}
 }
 
-// signedRoles lists the roles whose signatures on the record are valid for
-// the policy's keys.
-func signedRoles(path string, body []byte, policy string) ([]string, error) {
+// readBriefData reads the brief.json beside the record at path and checks
+// that it was made for the record's bytes.
+func readBriefData(path string, body []byte) (*briefData, error) {
+	bp := filepath.Join(filepath.Dir(path), "brief.json")
+	raw, err := os.ReadFile(bp)
+	if err != nil {
+		return nil, withHint(err, "brief.json is written by sluice propose beside decision.json")
+	}
+	bd, err := parseBriefData(raw, bp)
+	if err != nil {
+		return nil, err
+	}
+	if bd.RecordSHA256 != record.SHA256Hex(body) {
+		return nil, fmt.Errorf("%s was made for another record than %s (the record changed after the decision)", bp, path)
+	}
+	return bd, nil
+}
+
+// parseBriefData decodes brief.json strictly (unknown fields refused) and
+// checks that the chart data can be laid out: every curve's series as long
+// as its spend grid, the holdout's series as long as its weeks.
+func parseBriefData(raw []byte, source string) (*briefData, error) {
+	dec := json.NewDecoder(bytes.NewReader(raw))
+	dec.DisallowUnknownFields()
+	var bd briefData
+	if err := dec.Decode(&bd); err != nil {
+		return nil, fmt.Errorf("%s: %v", source, err)
+	}
+	if dec.More() {
+		return nil, fmt.Errorf("%s: data after the JSON object", source)
+	}
+	for i, cb := range bd.Curves {
+		n := len(cb.Spend)
+		if len(cb.P10) != n || len(cb.P50) != n || len(cb.P90) != n {
+			return nil, fmt.Errorf("%s: curves[%d]: spend, P10, P50 and P90 differ in length", source, i)
+		}
+	}
+	if h := bd.Holdout; h != nil {
+		n := len(h.Weeks)
+		if len(h.Actual) != n || len(h.Forecast) != n || (h.Low != nil && len(h.Low) != n) || (h.High != nil && len(h.High) != n) {
+			return nil, fmt.Errorf("%s: holdout: weeks and series differ in length", source)
+		}
+	}
+	return &bd, nil
+}
+
+// signedRoles lists the roles, sorted, whose sign-offs on the record hold
+// under the policy as verify judges them (valid, dated, not withdrawn).
+func signedRoles(path string, body []byte, rec *record.Decision, policy string) ([]string, error) {
 	sp := record.SignaturesPath(path)
-	if !fileExists(sp) || policy == "" {
+	if !fileExists(sp) {
 		return nil, nil
 	}
-	sigs, err := record.ReadSignoffs(sp)
+	sigs, err := record.ReadSignatures(sp)
 	if err != nil {
 		return nil, err
 	}
-	pol, err := policies.Resolve(policy)
+	pol, err := recordPolicy(rec, policy)
 	if err != nil {
 		return nil, err
 	}
-	ring, err := record.PolicyKeyring(pol)
-	if err != nil {
-		return nil, err
+	v := record.Verify(record.VerifyRequest{Record: body, Source: path, Signatures: sigs, Policy: pol})
+	var roles []string
+	for _, s := range v.Signed {
+		if !slices.Contains(roles, s.Role) {
+			roles = append(roles, s.Role)
+		}
 	}
-	roles, _ := record.SignedRoles(body, sigs, ring)
+	slices.Sort(roles)
 	return roles, nil
 }
 

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"fmt"
 	"os"
 	"slices"
@@ -21,29 +22,57 @@ type opts struct {
 	v *viper.Viper
 }
 
+// commandLineOnly are dangerous switches: taken from the command line
+// only, never from sluice.yaml or the environment, where they could be on
+// without the person running sluice seeing it. Either place naming one is
+// refused, not ignored.
+var commandLineOnly = []string{"replace-signed"}
+
 func newOpts(c *cli.Context) (*opts, error) {
+	for _, n := range commandLineOnly {
+		env := "SLUICE_" + strings.ToUpper(strings.ReplaceAll(n, "-", "_"))
+		if os.Getenv(env) != "" {
+			return nil, hinted{err: fmt.Errorf("%s is set, but --%s is taken from the command line only", env, n),
+				hint: fmt.Sprintf("unset %s and pass --%s on the command line if you mean it", env, n)}
+		}
+	}
 	v := viper.New()
 	v.SetEnvPrefix("SLUICE")
 	v.SetEnvKeyReplacer(strings.NewReplacer("-", "_"))
 	v.AutomaticEnv()
 	if _, err := os.Stat(configFile); err == nil {
-		v.SetConfigFile(configFile)
-		v.SetConfigType("yaml")
-		if err := v.ReadInConfig(); err != nil {
-			return nil, fmt.Errorf("%s: %v", configFile, err)
+		data, err := os.ReadFile(configFile)
+		if err != nil {
+			return nil, err
 		}
-		if err := checkConfigKeys(v, c); err != nil {
+		if err := readConfig(v, data, c.App.Commands); err != nil {
 			return nil, err
 		}
 	}
 	return &opts{c: c, v: v}, nil
 }
 
+// maxConfigSize bounds sluice.yaml: a defaults file is a few lines.
+const maxConfigSize = 1 << 20
+
+// readConfig reads the contents of sluice.yaml into v and refuses keys
+// that no command knows and keys of command-line-only switches.
+func readConfig(v *viper.Viper, data []byte, commands []*cli.Command) error {
+	if len(data) > maxConfigSize {
+		return fmt.Errorf("%s: larger than %d bytes, not a defaults file", configFile, maxConfigSize)
+	}
+	v.SetConfigType("yaml")
+	if err := v.ReadConfig(bytes.NewReader(data)); err != nil {
+		return fmt.Errorf("%s: %v", configFile, err)
+	}
+	return checkConfigKeys(v, commands)
+}
+
 // checkConfigKeys refuses keys in sluice.yaml that no command knows, so a
 // misspelt default is not silently ignored.
-func checkConfigKeys(v *viper.Viper, c *cli.Context) error {
+func checkConfigKeys(v *viper.Viper, commands []*cli.Command) error {
 	known := map[string]bool{}
-	for _, cmd := range c.App.Commands {
+	for _, cmd := range commands {
 		for _, f := range cmd.Flags {
 			for _, n := range f.Names() {
 				known[n] = true
@@ -52,6 +81,10 @@ func checkConfigKeys(v *viper.Viper, c *cli.Context) error {
 	}
 	var unknown []string
 	for _, k := range v.AllKeys() {
+		if slices.Contains(commandLineOnly, k) || slices.Contains(commandLineOnly, strings.ReplaceAll(k, "_", "-")) {
+			return hinted{err: fmt.Errorf("%s: key %q is refused: --%s is taken from the command line only", configFile, k, strings.ReplaceAll(k, "_", "-")),
+				hint: fmt.Sprintf("remove %s from %s and pass --%s on the command line if you mean it", k, configFile, strings.ReplaceAll(k, "_", "-"))}
+		}
 		if !known[k] && !known[strings.ReplaceAll(k, "_", "-")] {
 			unknown = append(unknown, k)
 		}

@@ -42,8 +42,8 @@ func runDemo(c *cli.Context) error {
 	if err := os.MkdirAll(filepath.Join(dir, "keys"), 0o755); err != nil {
 		return err
 	}
-	if err := guardSigned(dir, false); err != nil {
-		return withHint(err, "the demo never overwrites a signed record: pass another --out, or remove %s", dir)
+	if err := guardSigned(dir, false, false); err != nil {
+		return err
 	}
 	if err := copyExamples(dir); err != nil {
 		return err
@@ -71,7 +71,11 @@ func runDemo(c *cli.Context) error {
 	}
 	in := &modelInput{DataPath: data, Panel: p, Spec: spec, Design: d, ValuePerKPI: 1, Seed: c.Uint64("seed"),
 		Workers: max(1, c.Int("workers")), DataSHA256: hash}
-	fr, err := d.Fit(p.KPI, model.FitSettings{Seed: in.Seed, Workers: in.Workers})
+	// The example's lift tests are in every fit, as --lifts puts them.
+	if err := in.loadLifts(filepath.Join(dir, "lifts.csv")); err != nil {
+		return err
+	}
+	fr, err := in.Design.Fit(p.KPI, model.FitSettings{Seed: in.Seed, Workers: in.Workers})
 	if err != nil {
 		return err
 	}
@@ -84,11 +88,7 @@ func runDemo(c *cli.Context) error {
 	if err != nil {
 		return err
 	}
-	recPath := filepath.Join(dir, "decision.json")
-	if err := atomicfile.Write(recPath, run.bytes, 0o644); err != nil {
-		return err
-	}
-	brief, err := writeBrief(dir, run, "Fernhill Tea Co. (invented demo company)")
+	recPath, brief, err := writeDecisionSet(dir, run, "Fernhill Tea Co. (invented demo company)", false)
 	if err != nil {
 		return err
 	}
@@ -104,7 +104,7 @@ func runDemo(c *cli.Context) error {
 		seen[s.Role] = true
 		fmt.Fprintf(w, "  go run ./cmd/sluice sign --record %s --key %s --role %s\n", recPath, roles[s.Role], s.Role)
 	}
-	fmt.Fprintf(w, "  go run ./cmd/sluice verify --record %s --policy %s --data %s\n", recPath, policyPath, data)
+	fmt.Fprintf(w, "  go run ./cmd/sluice verify --record %s --policy %s --brief %s\n", recPath, policyPath, brief)
 	fmt.Fprintf(w, "  go run ./cmd/sluice report --record %s --policy %s   # the brief again, showing who signed\n", recPath, policyPath)
 	return nil
 }
@@ -130,16 +130,26 @@ func writeDemoPolicy(dir string) (string, map[string]string, error) {
 			return "", nil, fmt.Errorf("%s exists without %s; remove the demo directory", keyPath, pubPath)
 		}
 		keys[role] = keyPath
-		// The role's block in the preset lists no keys; list the demo key.
-		re := regexp.MustCompile(`(?m)^(  ` + regexp.QuoteMeta(role) + `:\n(?:    .*\n)*?    keys: )\[\]`)
+		pub, err := os.ReadFile(pubPath)
+		if err != nil {
+			return "", nil, err
+		}
+		// The role's block in the preset lists no keys; pin the demo key by
+		// its PEM text, so the policy's hash covers it.
+		re := regexp.MustCompile(`(?m)^(  ` + regexp.QuoteMeta(role) + `:\n(?:    .*\n)*?    keys: )\[\]\n`)
 		if !re.MatchString(text) {
 			return "", nil, errors.New("demo: the standard preset's role " + role + " has no empty keys list")
 		}
-		text = re.ReplaceAllString(text, "${1}[keys/"+role+".pub]   # DEMO KEY")
+		block := "      - |   # DEMO KEY, " + filepath.ToSlash(pubPath) + "\n        " +
+			strings.ReplaceAll(strings.TrimSpace(string(pub)), "\n", "\n        ") + "\n"
+		head := strings.TrimSuffix(re.FindStringSubmatch(text)[1], " ")
+		text = re.ReplaceAllLiteralString(text, head+"\n"+block)
 	}
 	text = strings.Replace(text, "name: standard", "name: fernhill-demo", 1)
+	text += "signing:\n  max_age_days: 90   # verify refuses sign-offs older than this (a rule of thumb, no source)\n"
 	text = "# DEMO POLICY for the invented Fernhill Tea Co.: the standard preset with demo\n" +
-		"# signing keys (keys/*.pub). Demo keys are for trying sluice only.\n" + text
+		"# signing keys pinned inline (their files are keys/*.pub). Demo keys are for\n" +
+		"# trying sluice only.\n" + text
 	path := filepath.Join(dir, "policy.yaml")
 	if err := atomicfile.Write(path, []byte(text), 0o644); err != nil {
 		return "", nil, err

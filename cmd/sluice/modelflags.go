@@ -10,6 +10,7 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"sluice/model"
+	"sluice/validation"
 )
 
 // modelFlags are the flags every command that fits the model shares.
@@ -28,6 +29,7 @@ func modelFlags() []cli.Flag {
 		&cli.IntFlag{Name: "starts", Usage: "multi-start count of the fit (default 6, or the spec's)"},
 		&cli.Uint64Flag{Name: "seed", Value: 1, Usage: "seed of every random stream; recorded in every output"},
 		&cli.IntFlag{Name: "workers", Value: 2, Usage: "parallel workers"},
+		&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV (channel,start,end,incremental,std_error): every fit is calibrated with it"},
 	}
 }
 
@@ -43,6 +45,12 @@ type modelInput struct {
 	DataSHA256  string
 	SpecPath    string
 	SpecSHA256  string // "" without a spec file
+	// LiftsPath is the lift-test file (--lifts, or lifts: in sluice.yaml);
+	// Design carries its tests, so every fit of Design is calibrated with
+	// them. LiftsSHA256 is "" without one.
+	LiftsPath   string
+	LiftsSHA256 string
+	Lifts       []validation.LiftTest
 }
 
 func loadModelInput(o *opts) (*modelInput, error) {
@@ -111,7 +119,35 @@ func loadModelInput(o *opts) (*modelInput, error) {
 	if in.DataSHA256, err = sha256File(in.DataPath); err != nil {
 		return nil, err
 	}
+	if path := o.String("lifts"); path != "" {
+		if err := in.loadLifts(path); err != nil {
+			return nil, err
+		}
+	}
 	return in, nil
+}
+
+// loadLifts reads the lift tests and puts them into the design, so the
+// likelihood of every fit (fit, bootstrap and its refits, curves,
+// validate, allocate, propose) includes them.
+func (in *modelInput) loadLifts(path string) error {
+	lifts, err := validation.LoadLifts(path, in.Panel)
+	if err != nil {
+		return err
+	}
+	rows := make([]model.Lift, len(lifts))
+	for i, l := range lifts {
+		rows[i] = model.Lift{Channel: l.ChannelIndex, From: l.From, To: l.To, Incremental: l.Incremental, StdError: l.StdError}
+	}
+	d, err := in.Design.WithLifts(rows)
+	if err != nil {
+		return fmt.Errorf("%s: %w", path, err)
+	}
+	if in.LiftsSHA256, err = sha256File(path); err != nil {
+		return err
+	}
+	in.Design, in.LiftsPath, in.Lifts = d, path, lifts
+	return nil
 }
 
 func sha256File(path string) (string, error) {

@@ -1,6 +1,8 @@
 package main
 
 import (
+	"bytes"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -22,6 +24,7 @@ import (
 	"sluice/optimize"
 	"sluice/policies"
 	"sluice/record"
+	"sluice/report"
 	"sluice/validation"
 )
 
@@ -35,7 +38,6 @@ func decisionFlags() []cli.Flag {
 		&cli.StringFlag{Name: "policy", Value: "standard", Usage: "policy: a preset name (" + strings.Join(policies.Names(), ", ") + ") or a YAML file"},
 		&cli.StringFlag{Name: "draws", Usage: "draws file from sluice bootstrap (command line only); without it a bootstrap runs here"},
 		&cli.IntFlag{Name: "bootstrap-draws", Value: DefaultDecisionDraws, Usage: "replicates of the bootstrap run here when no --draws is given"},
-		&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV: channel,start,end,incremental,std_error"},
 		&cli.StringFlag{Name: "records", Usage: "directory of earlier decision records to reconcile with the data"},
 		&cli.StringFlag{Name: "proposal", Usage: "gate this plan (YAML: channels: {name: weekly spend}) instead of the allocator's"},
 		&cli.StringFlag{Name: "waivers", Usage: "signatures file of an earlier record whose signed waivers apply to this decision"},
@@ -49,7 +51,7 @@ func proposeCommand() *cli.Command {
 		Usage: "allocate, gate every move by the policy and write the decision record (DIR/decision.json, DIR/report.html)",
 		Flags: append(decisionFlags(),
 			&cli.StringFlag{Name: "out", Usage: "directory for decision.json and report.html"},
-			&cli.BoolFlag{Name: "replace-signed", Usage: "move an earlier signed record in DIR aside (decision.<sha>.json) instead of refusing"},
+			&cli.BoolFlag{Name: "replace-signed", Usage: "move an earlier signed record in DIR aside (decision.<sha>.json) instead of refusing (command line only)"},
 			&cli.BoolFlag{Name: "json", Usage: "print the decision record instead of the table"},
 		),
 		Action: func(c *cli.Context) error {
@@ -61,8 +63,10 @@ func proposeCommand() *cli.Command {
 			if dir == "" {
 				return withHint(errors.New("propose needs --out"), "pass --out DIR; decision.json and report.html are written there")
 			}
-			if err := guardSigned(dir, o.Bool("replace-signed")); err != nil {
-				return err
+			// A dangerous switch: from the command line only (see config.go).
+			replace := c.Bool("replace-signed")
+			if err := guardSigned(dir, replace, false); err != nil {
+				return err // early, before the computation; checked again at write time
 			}
 			in, err := loadModelInput(o)
 			if err != nil {
@@ -72,17 +76,11 @@ func proposeCommand() *cli.Command {
 			if err != nil {
 				return err
 			}
-			if err := os.MkdirAll(dir, 0o755); err != nil {
-				return err
-			}
-			path := filepath.Join(dir, "decision.json")
-			if err := atomicfile.Write(path, run.bytes, 0o644); err != nil {
-				return err
-			}
-			brief, err := writeBrief(dir, run, "")
+			path, brief, err := writeDecisionSet(dir, run, "", replace)
 			if err != nil {
 				return err
 			}
+			warnUnsignable(c.App.ErrWriter, run)
 			if o.Bool("json") {
 				_, err := c.App.Writer.Write(run.bytes)
 				return err
@@ -99,8 +97,8 @@ func proposeCommand() *cli.Command {
 }
 
 // guardSigned refuses to overwrite a record that has sign-offs, unless
-// asked to move it aside.
-func guardSigned(dir string, replace bool) error {
+// asked to move it aside (move: do it now; false only checks).
+func guardSigned(dir string, replace, move bool) error {
 	rec := filepath.Join(dir, "decision.json")
 	sigs := record.SignaturesPath(rec)
 	if _, err := os.Stat(sigs); err != nil {
@@ -108,7 +106,10 @@ func guardSigned(dir string, replace bool) error {
 	}
 	if !replace {
 		return withHint(fmt.Errorf("refusing to overwrite %s: it has sign-offs in %s", rec, sigs),
-			"write the new decision to another --out, or pass --replace-signed to move the signed record aside")
+			"write the new decision to another --out, or pass --replace-signed on the command line to move the signed record aside")
+	}
+	if !move {
+		return nil
 	}
 	b, err := os.ReadFile(rec)
 	if err != nil {
@@ -119,6 +120,54 @@ func guardSigned(dir string, replace bool) error {
 		return err
 	}
 	return os.Rename(sigs, filepath.Join(dir, "decision."+tag+".signatures.json"))
+}
+
+// warnUnsignable says which required roles the policy pins no key for: the
+// decision cannot verify until the policy lists one.
+func warnUnsignable(w io.Writer, run *decisionRun) {
+	var roles []string
+	for _, s := range run.rec.SignoffsRequired {
+		if len(run.policy.KeyEntries(s.Role)) == 0 && !slices.Contains(roles, s.Role) {
+			roles = append(roles, s.Role)
+		}
+	}
+	if len(roles) > 0 {
+		fmt.Fprintf(w, "warning: policy %s pins no key for %s, which must sign this decision: it cannot be signed until the policy lists one\n",
+			run.policy.Name, strings.Join(roles, ", "))
+	}
+}
+
+// writeDecisionSet writes DIR/decision.json, DIR/brief.json and
+// DIR/report.html as one set (internal/atomicfile.WriteSet: all or
+// nothing, the manifest DIR/outputs.json last). Whether a signed record is
+// in the way is decided with the directory locked, just before writing.
+func writeDecisionSet(dir string, run *decisionRun, title string, replaceSigned bool) (recPath, briefPath string, err error) {
+	bd := newBriefData(run, title)
+	bdBytes, err := json.MarshalIndent(bd, "", "  ")
+	if err != nil {
+		return "", "", err
+	}
+	var page bytes.Buffer
+	if err := report.Render(&page, report.Input{Record: run.rec, Curves: bd.Curves, Gains: bd.Gains,
+		Holdout: bd.Holdout, Title: title, RecordSHA256: bd.RecordSHA256}); err != nil {
+		return "", "", err
+	}
+	files := []atomicfile.File{
+		{Name: "decision.json", Data: run.bytes, Perm: 0o644},
+		{Name: "brief.json", Data: append(bdBytes, '\n'), Perm: 0o644},
+		{Name: "report.html", Data: page.Bytes(), Perm: 0o644},
+	}
+	return filepath.Join(dir, "decision.json"), filepath.Join(dir, "report.html"), writeDecisionFiles(dir, files, replaceSigned)
+}
+
+// writeDecisionFiles writes a decision's files as one set, deciding with
+// DIR locked whether a signed record is in the way.
+func writeDecisionFiles(dir string, files []atomicfile.File, replaceSigned bool) error {
+	err := atomicfile.WriteSet(dir, files, atomicfile.SetOptions{Guard: func() error { return guardSigned(dir, replaceSigned, true) }})
+	if errors.Is(err, atomicfile.ErrLocked) {
+		err = withHint(err, "wait for the other run (or sign) to finish, then run again")
+	}
+	return err
 }
 
 // decisionRun is everything one decision computed.

@@ -21,7 +21,6 @@ import (
 	"sluice/rehearsal"
 	"sluice/report"
 	"sluice/uncertainty"
-	"sluice/validation"
 )
 
 func rehearseCommand() *cli.Command {
@@ -38,7 +37,6 @@ func rehearseCommand() *cli.Command {
 		Flags: append(modelFlags(),
 			&cli.StringFlag{Name: "plan", Usage: "plan YAML: horizon, budget, per-channel bounds, groups, objective, margin"},
 			&cli.StringSliceFlag{Name: "policy", Usage: "policy to rehearse: a preset name (" + strings.Join(policies.Names(), ", ") + ") or a YAML file; repeatable (default standard)"},
-			&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV of the data: each world gets the same tests (windows, standard errors) simulated from its truth"},
 			&cli.IntFlag{Name: "worlds", Value: 200, Usage: "simulated worlds"},
 			&cli.Float64Flag{Name: "misspecified", Value: 0.5, Usage: "share of worlds that break an assumption of the model"},
 			&cli.StringFlag{Name: "kinds", Value: strings.Join(kinds, ","), Usage: "comma-separated kinds of misspecified world to draw from"},
@@ -113,12 +111,9 @@ func rehearseCommand() *cli.Command {
 					}
 				}
 			}
-			prob := rehearsal.Problem{Panel: in.Panel, Design: in.Design, Plan: plan, Policies: pols}
-			if path := o.String("lifts"); path != "" {
-				if prob.Lifts, err = validation.LoadLifts(path, in.Panel); err != nil {
-					return err
-				}
-			}
+			// With --lifts (a model flag), each world gets the same tests
+			// (windows, standard errors) with results simulated from its truth.
+			prob := rehearsal.Problem{Panel: in.Panel, Design: in.Design, Plan: plan, Policies: pols, Lifts: in.Lifts}
 			r, err := rehearsal.Run(ctx, prob, set)
 			if err != nil {
 				return err
@@ -196,6 +191,7 @@ func rehearseMergeCommand() *cli.Command {
 			}
 			var first *rehearseFile
 			var parts [][]rehearsal.Outcome
+			shards := 0 // the N of the shards K/N when all share it
 			for _, path := range c.Args().Slice() {
 				b, err := os.ReadFile(path)
 				if err != nil {
@@ -211,12 +207,17 @@ func rehearseMergeCommand() *cli.Command {
 					return fmt.Errorf("%s is not a shard of the same rehearsal as %s: %s", path, c.Args().First(), msg)
 				}
 				parts = append(parts, f.Outcomes)
+				if sh, err := uncertainty.ParseShard(f.Shard); err == nil && (len(parts) == 1 || sh.N == shards) {
+					shards = sh.N
+				} else {
+					shards = -1
+				}
 			}
 			names := make([]string, len(first.Policies))
 			for j, p := range first.Policies {
 				names[j] = p.Name
 			}
-			r, err := rehearsal.Merge(first.Seed, first.Sizes, names, first.WorldsTotal, parts)
+			r, err := rehearsal.Merge(first.Seed, first.Sizes, names, first.WorldsTotal, max(shards, 0), parts)
 			if err != nil {
 				return err
 			}

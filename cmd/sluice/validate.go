@@ -21,7 +21,6 @@ func validateCommand() *cli.Command {
 			&cli.StringFlag{Name: "draws", Usage: "draws file from sluice bootstrap (command line only); without it a bootstrap of --bootstrap-draws runs here"},
 			&cli.IntFlag{Name: "bootstrap-draws", Value: DefaultDecisionDraws, Usage: "replicates of the bootstrap run here when no --draws is given (0: skip the checks that need draws)"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress bar"},
-			&cli.StringFlag{Name: "lifts", Usage: "lift-test CSV: channel,start,end,incremental,std_error"},
 			&cli.BoolFlag{Name: "calibrate", Usage: "also refit with the lift tests in the objective and report the ROI it gives"},
 			&cli.StringFlag{Name: "records", Usage: "directory of earlier forecasts (*.json) to reconcile with the data"},
 			&cli.IntFlag{Name: "holdout-weeks", Value: 13, Usage: "weeks held out at the end of the data"},

@@ -37,6 +37,44 @@ type Problem struct {
 	// of Σ_l coef_l M_l(θ), for every j. theta and coef are those of the
 	// last Columns call.
 	Deriv func(theta, coef []float64, d [][]float64)
+
+	// Priors, if not nil, holds one prior per θ_j (a zero Prior is none).
+	// Each adds the residual Weight·(g(θ_j) − Center)/Scale to the
+	// objective, g the identity or log: a Gaussian prior on θ_j or log θ_j
+	// when Weight is the noise SD of the observations, which makes the
+	// minimum a maximum a posteriori estimate. The linear coefficients stay
+	// exact; their priors are extra rows of the observations (the caller's).
+	Priors []Prior
+}
+
+// Prior is a Gaussian prior on one nonlinear parameter, as a penalty
+// residual Weight·(g(θ) − Center)/Scale with g = log when Log is set. A zero
+// Scale means no prior.
+type Prior struct {
+	Center, Scale, Weight float64
+	Log                   bool
+}
+
+// residual returns the prior residual at v and its derivative.
+func (p Prior) residual(v float64) (r, dr float64) {
+	if p.Scale == 0 {
+		return 0, 0
+	}
+	w := p.Weight / p.Scale
+	if p.Log {
+		return w * (math.Log(v) - p.Center), w / v
+	}
+	return w * (v - p.Center), w
+}
+
+// Penalty returns Σ_j prior residual_j² at theta (0 without priors).
+func (p *Problem) Penalty(theta []float64) float64 {
+	var s float64
+	for j, pr := range p.Priors {
+		r, _ := pr.residual(theta[j])
+		s += r * r
+	}
+	return s
 }
 
 // Settings controls the search. The zero value is usable.
@@ -49,7 +87,22 @@ type Settings struct {
 	// from reaching zero); 0 means 1e-5. The search stops early, before it
 	// stalls, when the cosine falls below EarlyGradTol.
 	GradTol float64
+	// FlatTol: the search also stops, as converged, when the objective fell
+	// by less than this share over the last FlatIterations accepted steps
+	// while no cosine exceeds FlatGradTol — a search creeping along a flat
+	// curved valley (a MAP fit's priors make such valleys) whose remaining
+	// gain is far below the objective's sampling variation (of order 1/n
+	// relative: 1e-6 of the objective is 1e-6·n in units of −2 log-likelihood).
+	// Zero turns the rule off (the certified problems need every digit);
+	// statistical fits use 1e-6 (model.Design.Fit).
+	FlatTol float64
 }
+
+// FlatIterations and FlatGradTol qualify Settings.FlatTol.
+const (
+	FlatIterations = 10
+	FlatGradTol    = 1e-2
+)
 
 // Status says why a search stopped.
 type Status int
@@ -80,7 +133,8 @@ type Result struct {
 	Theta       []float64 // nonlinear parameters
 	Coef        []float64 // coefficients of the varying columns
 	FixedCoef   []float64 // coefficients of the fixed columns
-	RSS         float64
+	RSS         float64   // the minimized objective: residual sum of squares plus Penalty
+	Penalty     float64   // the priors' part of RSS (Problem.Penalty at Theta)
 	Status      Status
 	Evaluations int
 	Iterations  int
@@ -303,6 +357,9 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 	if len(p.Lower) != m || len(p.Upper) != m {
 		panic("varpro: start and bounds differ in length")
 	}
+	if p.Priors != nil && len(p.Priors) != m {
+		panic("varpro: priors and start differ in length")
+	}
 	maxEval := set.MaxEvaluations
 	if maxEval == 0 {
 		maxEval = 400
@@ -321,7 +378,7 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 			return Result{}, ErrBadStart
 		}
 	}
-	rss, err := s.Evaluate(theta)
+	rss, err := s.objective(theta)
 	if err != nil {
 		return Result{}, err
 	}
@@ -334,6 +391,8 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 	grad := make([]float64, m)
 	trial := make([]float64, m)
 	bestCoef := append([]float64(nil), s.coef...)
+	flatTol := set.FlatTol
+	var history []float64 // objective after each accepted step
 	mu := 1e-3
 	stall := 0
 	status := MaxEvaluations
@@ -341,6 +400,7 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 		res.Iterations++
 		s.jacobian(theta, jac)
 		normalMatrix(jac, s.resid, jtj, grad) // grad = Jᵀ r, the gradient of ½ RSS
+		s.addPriors(theta, jtj, grad)
 		// Which variables may move: not pinned at a bound by the gradient.
 		free := make([]int, 0, m)
 		var maxCos float64
@@ -360,6 +420,11 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 		}
 		// Stop early only when clearly stationary; near the round-off floor
 		// the search stalls instead and the looser test below decides.
+		if n := len(history); flatTol > 0 && n >= FlatIterations && maxCos <= FlatGradTol &&
+			history[n-FlatIterations]-rss <= flatTol*rss {
+			status = Converged
+			break
+		}
 		if len(free) == 0 || maxCos <= EarlyGradTol || rss == 0 {
 			status = Converged
 			if degenerate(jtj, nonzero(jtj)) {
@@ -381,13 +446,14 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 			for i, j := range free {
 				trial[j] = math.Min(p.Upper[j], math.Max(p.Lower[j], theta[j]+step[i]))
 			}
-			tr, err := s.Evaluate(trial)
+			tr, err := s.objective(trial)
 			res.Evaluations++
 			if err == nil && tr < rss {
 				rel := (rss - tr) / math.Max(rss, math.SmallestNonzeroFloat64)
 				copy(theta, trial)
 				copy(bestCoef, s.coef)
 				rss = tr
+				history = append(history, rss)
 				mu = math.Max(mu/3, 1e-12)
 				improved = true
 				if rel < relTol {
@@ -408,10 +474,16 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 			res.Evaluations++
 			s.jacobian(theta, jac)
 			normalMatrix(jac, s.resid, jtj, grad)
+			s.addPriors(theta, jtj, grad)
 			switch {
 			case degenerate(jtj, nonzero(jtj)):
 				status = Degenerate
-			case converged(jtj, grad, s.resid, theta, p, gradTol):
+			case converged(jtj, grad, rss, theta, p, gradTol):
+				status = Converged
+			case flatTol > 0 && converged(jtj, grad, rss, theta, p, FlatGradTol):
+				// Steps no longer reduce the objective and the gradient is
+				// within the flat rule's tolerance: as stationary as the
+				// rule asks.
 				status = Converged
 			default:
 				status = NoProgress
@@ -426,14 +498,38 @@ func (s *Solver) Solve(start []float64, set Settings) (Result, error) {
 	res.Theta = theta
 	res.Coef = bestCoef
 	res.RSS = rss
+	res.Penalty = p.Penalty(theta)
 	res.Status = status
 	res.FixedCoef = s.fixedCoef()
 	return res, nil
 }
 
-// converged applies the gradient (cosine) test at theta.
-func converged(jtj *mat.SymDense, grad, resid, theta []float64, p *Problem, gradTol float64) bool {
-	rnorm := math.Sqrt(dot(resid, resid))
+// objective is Evaluate plus the priors' penalty.
+func (s *Solver) objective(theta []float64) (float64, error) {
+	rss, err := s.Evaluate(theta)
+	if err != nil || math.IsInf(rss, 1) {
+		return rss, err
+	}
+	return rss + s.p.Penalty(theta), nil
+}
+
+// addPriors adds the prior rows to JᵀJ and Jᵀr: each is a residual of θ_j
+// alone, so it adds to the diagonal and to the gradient only.
+func (s *Solver) addPriors(theta []float64, jtj *mat.SymDense, grad []float64) {
+	for j, pr := range s.p.Priors {
+		r, dr := pr.residual(theta[j])
+		if dr == 0 {
+			continue
+		}
+		jtj.SetSym(j, j, jtj.At(j, j)+dr*dr)
+		grad[j] += dr * r
+	}
+}
+
+// converged applies the gradient (cosine) test at theta; obj is the
+// objective (residual and prior rows) there.
+func converged(jtj *mat.SymDense, grad []float64, obj float64, theta []float64, p *Problem, gradTol float64) bool {
+	rnorm := math.Sqrt(obj)
 	if rnorm == 0 {
 		return true
 	}
@@ -593,7 +689,7 @@ func (s *Solver) StdErrors(res Result) (fixedSE, coefSE, thetaSE []float64, err 
 	}
 	var cov mat.Dense
 	cov.Mul(&rinv, rinv.T())
-	sigma2 := res.RSS / float64(dof)
+	sigma2 := (res.RSS - res.Penalty) / float64(dof)
 	se := make([]float64, k)
 	for j := range k {
 		se[j] = math.Sqrt(sigma2 * cov.At(j, j))

@@ -6,7 +6,10 @@ Reads one JSON object on stdin:
 and writes one JSON object on stdout with, per sign-off, what Debian's
 python3-cryptography (OpenSSL) finds. Nothing here uses sluice code: the
 PAE is rebuilt from the DSSE protocol.md definition, the payload type and
-waiver digest from the format documented in record.SignedPayloadType.
+waiver digest from the format documented in record.SignedPayloadType
+(withdrawals: the same with the base type WITHDRAWAL_TYPE, record.Withdraw),
+the key fingerprint from policies.Fingerprint (sha256: + hex SHA-256 of the
+key's SubjectPublicKeyInfo DER).
 """
 import base64
 import hashlib
@@ -17,6 +20,7 @@ from cryptography.exceptions import InvalidSignature
 from cryptography.hazmat.primitives import serialization
 
 BASE_TYPE = "application/vnd.sluice.decision+json"
+WITHDRAWAL_TYPE = "application/vnd.sluice.withdrawal+json"
 
 
 def pae(payload_type, payload):
@@ -29,8 +33,8 @@ def b64(s):
     return base64.b64decode(s + "=" * (-len(s) % 4), validate=True)
 
 
-def expected_type(so):
-    t = BASE_TYPE + "; role=" + so["role"]
+def expected_type(so, base=BASE_TYPE):
+    t = base + "; role=" + so["role"]
     if so.get("signed_at"):
         t += '; signed-at="' + so["signed_at"] + '"'
     if so.get("waivers"):
@@ -53,27 +57,31 @@ def main():
         out["keys"][role] = {
             "pair_matches": raw(priv.public_key()) == raw(pub),
             "keyid": hashlib.sha256(der).hexdigest()[:16],
+            "fingerprint": "sha256:" + hashlib.sha256(der).hexdigest(),
         }
     doc = json.loads(req["signatures"])
     out["format"] = doc["format"]
-    for so in doc["signoffs"]:
-        env = so["envelope"]
-        payload = b64(env["payload"])
-        sig = b64(env["signatures"][0]["sig"])
-        priv, pub = keys[so["role"]]
-        m = pae(env["payloadType"], payload)
-        try:
-            pub.verify(sig, m)
-            verifies = True
-        except InvalidSignature:
-            verifies = False
-        out["signoffs"].append({
-            "role": so["role"],
-            "payload_is_record": payload == record,
-            "type_matches": env["payloadType"] == expected_type(so),
-            "verifies": verifies,
-            "resign_identical": priv.sign(m) == sig,
-        })
+    for section, base in (("signoffs", BASE_TYPE), ("withdrawals", WITHDRAWAL_TYPE)):
+        out[section] = []
+        for so in doc.get(section, []):
+            env = so["envelope"]
+            payload = b64(env["payload"])
+            sig = b64(env["signatures"][0]["sig"])
+            priv, pub = keys[so["role"]]
+            m = pae(env["payloadType"], payload)
+            try:
+                pub.verify(sig, m)
+                verifies = True
+            except InvalidSignature:
+                verifies = False
+            out[section].append({
+                "role": so["role"],
+                "payload_is_record": payload == record,
+                "type_matches": env["payloadType"] == expected_type(so, base),
+                "has_time": bool(so.get("signed_at")) and 'signed-at="' in env["payloadType"],
+                "verifies": verifies,
+                "resign_identical": priv.sign(m) == sig,
+            })
     json.dump(out, sys.stdout, sort_keys=True)
 
 
