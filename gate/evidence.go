@@ -53,12 +53,37 @@ func reviewEvidence(r Review) (*evidenceOutcome, error) {
 	band := "±" + pct(rules.ExplorationBand) + " of current spend"
 
 	lifted := make([]bool, len(r.Waivers)) // the waiver lifted something
-	for _, c := range r.Evidence.Checks {
+	// Every check with a p-value is graded by the policy's false-alarm
+	// rates (validation.Grade), the others keep their raw thresholds.
+	checks := slices.Clone(r.Evidence.Checks)
+	for i := range checks {
+		if l := rules.Checks[checks[i].Name].RawLimit; l != nil {
+			checks[i].GradeRaw(*l)
+		}
+	}
+	validation.Grade(checks, rules.RatesFor)
+	for _, c := range checks {
 		use := CheckUse{Check: c, Action: rules.ActionFor(c)}
 		if use.Action == "" {
 			use.Effect = "passed"
 			out.checks = append(out.checks, use)
 			continue
+		}
+		global := c.Scope == "" || c.Scope == validation.Global
+		switch {
+		case c.Basis == validation.BasisPrecision && use.Action != policies.Warn:
+			// The draws that judge the moves carry the same uncertainty:
+			// acting on it again would count it twice.
+			use.Action = policies.Warn
+			what := fmt.Sprintf("check %s on %s (%s) %s: %s", c.Name, c.Scope, c.Family, statusWord(c.Status == validation.Fail), c.Detail)
+			use.Effect = "warning only: the risk limits already count this uncertainty (same draws)"
+			out.warnings = append(out.warnings, what+"; the risk limits already count it")
+			out.checks = append(out.checks, use)
+			continue
+		case use.Action == policies.Refuse && !global:
+			// Only a check about the whole model refuses the decision; a
+			// channel's failure holds that channel.
+			use.Action = policies.Hold
 		}
 		for i, w := range r.Waivers {
 			if w.Check == c.Name && rules.MayWaive(w.Role, c) && use.WaivedBy == "" {
@@ -66,11 +91,17 @@ func reviewEvidence(r Review) (*evidenceOutcome, error) {
 				lifted[i] = true
 			}
 		}
-		what := fmt.Sprintf("check %s (%s) %s", c.Name, c.Family, statusWord(c.Status == validation.Fail))
+		on := ""
+		if !global {
+			on = " on " + c.Scope
+		}
+		what := fmt.Sprintf("check %s%s (%s) %s", c.Name, on, c.Family, statusWord(c.Status == validation.Fail))
 		if c.Detail != "" {
 			what += ": " + c.Detail
 		}
-		global := c.Scope == "" || c.Scope == validation.Global
+		if c.PValue != nil {
+			what += fmt.Sprintf(" (p = %.2g; a right model fails this check at rate %.2g)", *c.PValue, c.Rate)
+		}
 		k := slices.Index(r.Channels, c.Scope)
 		switch {
 		case use.WaivedBy != "":

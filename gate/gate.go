@@ -152,6 +152,17 @@ type Decision struct {
 	// that the plan as a whole passes (1 when no scaling was needed).
 	PlanScale float64 `json:"plan_scale"`
 	Search    Search  `json:"search"`
+	// Draws says which draws judged the moves; the caller fills it (the
+	// gate judges whatever Review.Response holds).
+	Draws DrawUse `json:"draws_judged"`
+}
+
+// DrawUse records how the draws were shared between the allocator and the
+// gate, so the record shows the optimiser's curse was avoided.
+type DrawUse struct {
+	Allocated int    `json:"allocator"` // draws the allocator optimised over
+	Judged    int    `json:"gate"`      // draws the gate judged
+	Rule      string `json:"rule"`
 }
 
 // Run reviews r. Errors report problems with the review's data; slices of
@@ -203,7 +214,7 @@ func Run(r Review, s Settings) (*Decision, error) {
 	for k := range delta {
 		guarded = guarded || held[k] != delta[k]
 	}
-	proposalBreaks := breaches(proposedRisk, pol.Risk)
+	proposalBreaks := breaches(proposedRisk, limitsOf(r))
 
 	var approved []float64
 	refused := "" // why the decision is refused, for the moves
@@ -594,7 +605,7 @@ func downsize(ev *evaluator, r Review, d *Decision, delta, held []float64, caps 
 
 // riskReason says why channel k's step stops at st.tau.
 func riskReason(r Review, delta []float64, k int, st stepResult) string {
-	lim := r.Policy.Risk
+	lim := limitsOf(r)
 	h := r.Economics.Horizon
 	names := make([]string, len(st.others))
 	for i, j := range st.others {

@@ -217,21 +217,48 @@ func TestEvidenceCapAndRefuse(t *testing.T) {
 			t.Errorf("approved %v, want video 5,500, tv 8,400, search 9,100", d.ApprovedPlan)
 		}
 	})
-	t.Run("refuse", func(t *testing.T) {
+	t.Run("refuse on a channel holds the channel", func(t *testing.T) {
+		// Issue 13: only a check about the whole model refuses the
+		// decision; a channel's failure holds that channel.
 		pol := parsePolicy(t, strings.Replace(loose, "lift: {on_fail: cap}", "lift: {on_fail: refuse}", 1))
 		r := makeReview(specs, proposed, 400, 6, pol)
 		r.Evidence = liftFail("video")
 		d := run(t, r)
+		if d.Verdict == Refuse || d.ApprovedPlan[1] != r.Current[1] {
+			t.Fatalf("verdict %s approved %v; want video held at %v and the rest decided", d.Verdict, d.ApprovedPlan, r.Current[1])
+		}
+		if !hasReason(d.Moves[1], "lift_video") {
+			t.Errorf("video reasons %q", d.Moves[1].Reasons)
+		}
+	})
+	t.Run("refuse on the whole model", func(t *testing.T) {
+		pol := parsePolicy(t, loose)
+		r := makeReview(specs, proposed, 400, 6, pol)
+		r.Evidence = validation.Evidence{Checks: []validation.Check{
+			{Name: "holdout_wmape", Family: validation.Accuracy, Scope: validation.Global, Status: validation.Fail},
+		}}
+		d := run(t, r)
 		if d.Verdict != Refuse || !slicesEqual(d.ApprovedPlan, r.Current) {
 			t.Fatalf("verdict %s approved %v", d.Verdict, d.ApprovedPlan)
 		}
-		if len(d.Reasons) == 0 || !contains(d.Reasons[0], "lift_video") || !contains(d.Reasons[0], "refuses") {
+		if len(d.Reasons) == 0 || !contains(d.Reasons[0], "holdout_wmape") || !contains(d.Reasons[0], "refuses") {
 			t.Errorf("reasons %q", d.Reasons)
 		}
 		for _, k := range []int{0, 1, 2} {
 			if !hasReason(d.Moves[k], "refused") {
 				t.Errorf("%s reasons %q", r.Channels[k], d.Moves[k].Reasons)
 			}
+		}
+	})
+	t.Run("precision evidence is not counted twice", func(t *testing.T) {
+		pol := parsePolicy(t, strings.Replace(loose, "lift: {on_fail: cap}", "lift: {on_fail: refuse}", 1))
+		r := makeReview(specs, proposed, 400, 6, pol)
+		r.Evidence = liftFail("video")
+		r.Evidence.Checks[1].Basis = validation.BasisPrecision
+		d := run(t, r)
+		plain := run(t, makeReview(specs, proposed, 400, 6, pol))
+		if !slicesEqual(d.ApprovedPlan, plain.ApprovedPlan) || d.Checks[1].Action != "warn" {
+			t.Errorf("a precision check changed the plan: %v, without it %v; action %q", d.ApprovedPlan, plain.ApprovedPlan, d.Checks[1].Action)
 		}
 	})
 }
@@ -245,9 +272,10 @@ func TestWaivers(t *testing.T) {
 		verdict Verdict
 	}{
 		{"allowed role", Waiver{"lift_video", "analytics_lead"}, Approve},
-		{"role not allowed", Waiver{"lift_video", "finance_partner"}, Refuse},
-		{"undefined role", Waiver{"lift_video", "intern"}, Refuse},
-		{"other check", Waiver{"lift_tv", "analytics_lead"}, Refuse},
+		// Not waived, the failed channel check holds video: the rest moves.
+		{"role not allowed", Waiver{"lift_video", "finance_partner"}, Downsize},
+		{"undefined role", Waiver{"lift_video", "intern"}, Downsize},
+		{"other check", Waiver{"lift_tv", "analytics_lead"}, Downsize},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -307,5 +335,52 @@ func TestEvidenceHold(t *testing.T) {
 	}
 	if !hasReason(d.Moves[1], "lift_video") {
 		t.Errorf("video reasons %q", d.Moves[1].Reasons)
+	}
+}
+
+// TestFalseAlarmRates: a check with a p-value is graded by the policy's
+// false-alarm rate for its family, split over the family's tested checks
+// (Bonferroni); a raw limit the policy sets for a named check wins.
+func TestFalseAlarmRates(t *testing.T) {
+	p := func(v float64) *float64 { return &v }
+	ev := func() validation.Evidence {
+		return validation.Evidence{Checks: []validation.Check{
+			// Two tested stability checks: each gets half the family's rate.
+			{Name: "stability/drift", Family: validation.Stability, Scope: "video", Status: validation.Pass, Metric: 2.2, PValue: p(0.03)},
+			{Name: "stability/drift", Family: validation.Stability, Scope: "search", Status: validation.Pass, Metric: 0.1, PValue: p(0.9)},
+		}}
+	}
+	cases := []struct {
+		name, rates string
+		want        validation.Status
+	}{
+		// 0.03 < 0.10/2: fails.
+		{"fail at 10%", "  false_alarm: {fail: 0.10, warn: 0.20}\n", validation.Fail},
+		// 0.03 ≥ 0.05/2 but < 0.20/2: warns.
+		{"warn at 5%", "  false_alarm: {fail: 0.05, warn: 0.20}\n", validation.Warn},
+		// 0.03 ≥ 0.02/2 and ≥ 0.04/2: passes.
+		{"pass at 2%", "  false_alarm: {fail: 0.02, warn: 0.04}\n", validation.Pass},
+		// The raw limit on the metric 2.2 (above 2) fails whatever the rate.
+		{"raw limit", "  false_alarm: {fail: 0.02, warn: 0.04}\n  checks:\n    stability/drift: {raw_limit: {warn: 1, fail: 2}}\n", validation.Fail},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			pol := parsePolicy(t, strings.Replace(loose, "evidence:\n", "evidence:\n"+c.rates, 1))
+			r := makeReview(tight, []float64{9000, 5400, 8600}, 300, 8, pol)
+			r.Evidence = ev()
+			d := run(t, r)
+			var got *CheckUse
+			for i := range d.Checks {
+				if d.Checks[i].Scope == "video" {
+					got = &d.Checks[i]
+				}
+			}
+			if got == nil || got.Status != c.want {
+				t.Fatalf("video's drift check: %+v, want status %s", got, c.want)
+			}
+			if r.Evidence.Checks[0].Status != validation.Pass {
+				t.Error("the gate changed the review's evidence in place")
+			}
+		})
 	}
 }

@@ -2,7 +2,6 @@ package gate
 
 import (
 	"context"
-	"math"
 	"testing"
 
 	"sluice/model"
@@ -99,9 +98,14 @@ func TestCleanWorldApprovedGainIsReal(t *testing.T) {
 	}
 }
 
-// With two confounded channels the gate holds back the moves between them,
-// while the move of the well-identified channel passes.
-func TestConfoundedWorldHoldsBackConfoundedMoves(t *testing.T) {
+// With two confounded channels (display is spent with video) the data
+// cannot settle display's ROI. That uncertainty is in the draws (display's
+// ROI spread) and the gate judges it there once (issue 13: evidence from
+// the same draws is not counted twice): whatever it approves must not lose
+// money in truth, and the precision evidence must be shown but not acted
+// on. (Before issue 13 the recovery check held both channels; the risk
+// limits now decide, measured by the true gain.)
+func TestConfoundedWorldApprovedPlanDoesNotLose(t *testing.T) {
 	if testing.Short() {
 		t.Skip("whole pipeline")
 	}
@@ -109,23 +113,21 @@ func TestConfoundedWorldHoldsBackConfoundedMoves(t *testing.T) {
 	for _, m := range dec.Moves {
 		t.Logf("%-8s current %.0f proposed %.0f approved %.0f safe step %.2f %q", m.Channel, m.Current, m.Proposed, m.Approved, m.SafeStep, m.Reasons)
 	}
-	share := func(k int) float64 {
-		d := r.Proposed[k] - r.Current[k]
-		if d == 0 {
-			return 1
-		}
-		return (dec.ApprovedPlan[k] - r.Current[k]) / d
-	}
-	// channels: search 0, video 1, display 2
-	if math.Abs(r.Proposed[1]-r.Current[1])+math.Abs(r.Proposed[2]-r.Current[2]) < 1 {
-		t.Skip("the allocator proposed no move between the confounded channels")
-	}
-	if share(1) > 0.5 && share(2) > 0.5 {
-		t.Errorf("confounded moves approved at %.0f%% and %.0f%% of the proposal", 100*share(1), 100*share(2))
-	}
-	if share(0) < 0.5 {
-		t.Errorf("the well-identified search move approved at only %.0f%%", 100*share(0))
-	}
 	g := r.Economics.Gains(nil, truth, dec.ApprovedPlan, r.Current)[0]
 	t.Logf("verdict %s; true gain of the approved plan %.0f", dec.Verdict, g)
+	if g < 0 {
+		t.Errorf("the approved plan loses %.0f in truth", -g)
+	}
+	shown := false
+	for _, c := range dec.Checks {
+		if c.Name == "stability/roi_cv" && c.Scope == "display" {
+			shown = true
+			if c.Status == "pass" || c.Action != policies.Warn {
+				t.Errorf("display's ROI spread: status %s, action %q; want it flagged and left to the risk limits", c.Status, c.Action)
+			}
+		}
+	}
+	if !shown {
+		t.Error("no ROI-spread check for display in the decision")
+	}
 }

@@ -116,7 +116,19 @@ type evaluator struct {
 }
 
 func newEvaluator(r Review) *evaluator {
-	return &evaluator{resp: newMemo(r.Response, r.Current), econ: r.Economics, current: r.Current, limits: r.Policy.Risk}
+	return &evaluator{resp: newMemo(r.Response, r.Current), econ: r.Economics, current: r.Current, limits: limitsOf(r)}
+}
+
+// limitsOf is the policy's risk limits with the review's quarter budget
+// (current weekly spend × horizon) for the floors set as budget shares.
+func limitsOf(r Review) policies.Risk {
+	lim := r.Policy.Risk
+	lim.Budget = 0
+	for _, c := range r.Current {
+		lim.Budget += c
+	}
+	lim.Budget *= float64(r.Economics.Horizon)
+	return lim
 }
 
 // risk measures the move to plan, using buf (one slot per draw) for gains.

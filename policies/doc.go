@@ -44,6 +44,16 @@
 //	                           absent: none.
 //	risk.cvar_floor_share      the same as a share of the money moved over the
 //	                           horizon; absent: none; in [-1, 1].
+//	risk.downside_floor_budget_share, risk.cvar_floor_budget_share
+//	                           the floors as shares of the quarter's media
+//	                           budget (current weekly spend × horizon weeks):
+//	                           -0.005 = at the downside level (or on average
+//	                           over the CVaR tail) the move may lose at most
+//	                           0.5% of the quarter's media budget. This is the
+//	                           unit a finance partner sets; a floor as a share
+//	                           of the money moved shrinks with the move and
+//	                           refused small, clearly profitable moves. absent:
+//	                           none; in [-1, 1]. All floors given must hold.
 //	risk.min_expected_gain     smallest acceptable mean gain, money over the
 //	                           horizon; absent: none. Above zero it also rules
 //	                           out very small steps.
@@ -69,10 +79,36 @@
 //	evidence.exploration_band  "cap" holds a channel within ± this share of its
 //	                           current spend (0.10: ±10%); 0: no change; in
 //	                           [0, 1].
-//	evidence.families.F        {on_fail, on_warn} for family F (accuracy,
-//	                           recovery, stability, lift, reconciliation,
-//	                           identification);
-//	                           absent fields inherit the defaults above.
+//	evidence.false_alarm       {fail, warn}: the rate at which a family of
+//	                           tested checks fails (warns) when the fitted
+//	                           model is right, e.g. {fail: 0.05, warn: 0.20}.
+//	                           A check that tests the model carries a p-value
+//	                           (the chance of a metric this bad on a right
+//	                           model, measured on panels simulated from the
+//	                           fit, or from a known distribution; see package
+//	                           validation, rates.go); it fails when the p-value
+//	                           is below fail / m, m the number of tested checks
+//	                           of its family in the evidence (every channel's
+//	                           counts): the Bonferroni allowance for many
+//	                           channels at once, so the family as a whole
+//	                           fails a right model at most at rate fail.
+//	                           Checks without a p-value keep their raw
+//	                           thresholds. Absent: {fail: 0.05, warn: 0.20}.
+//	evidence.families.F        {on_fail, on_warn, false_alarm} for family F
+//	                           (accuracy, recovery, stability, lift,
+//	                           reconciliation, identification); absent fields
+//	                           inherit the defaults above.
+//
+//	                           Evidence acts by scope: a check about one
+//	                           channel holds or caps that channel (refuse on a
+//	                           channel-scoped check holds the channel); only a
+//	                           check about the whole model (accuracy,
+//	                           reconciliation) can refuse the decision. Checks
+//	                           that measure precision from the same draws as
+//	                           the risk limits (basis "precision": ROI spread,
+//	                           break-even flips, recovery error and bias, spend
+//	                           collinearity) only warn: the risk limits already
+//	                           count that uncertainty.
 //	evidence.checks.NAME       {on_fail, on_warn} for the check called NAME;
 //	                           overrides its family.
 //	evidence.waivers.ROLE      {families: [...], checks: [...]}: the checks

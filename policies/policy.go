@@ -55,28 +55,44 @@ type Risk struct {
 	CVaRLevel          float64  `yaml:"cvar_level"`
 	CVaRFloor          *float64 `yaml:"cvar_floor"`
 	CVaRFloorShare     *float64 `yaml:"cvar_floor_share"`
-	MinExpectedGain    *float64 `yaml:"min_expected_gain"`
+	// DownsideFloorBudget and CVaRFloorBudget are floors as shares of the
+	// quarter's media budget (current weekly spend × horizon weeks): the
+	// unit a finance partner sets ("at worst, lose half a percent of the
+	// quarter's media budget"), which does not shrink with the move as a
+	// share of the money moved does.
+	DownsideFloorBudget *float64 `yaml:"downside_floor_budget_share"`
+	CVaRFloorBudget     *float64 `yaml:"cvar_floor_budget_share"`
+	MinExpectedGain     *float64 `yaml:"min_expected_gain"`
+
+	// Budget is the quarter's media budget the budget shares apply to; the
+	// gate sets it for each review (not read from the policy file).
+	Budget float64 `yaml:"-"`
 }
 
 // DownsideFloorFor returns the binding floor for the downside quantile of a
 // move that moves moved money over the horizon (the higher of the two floors
 // when both are given), and false when the policy sets none.
 func (r Risk) DownsideFloorFor(moved float64) (float64, bool) {
-	return floorFor(r.DownsideFloor, r.DownsideFloorShare, moved)
+	return floorFor(r.DownsideFloor, r.DownsideFloorShare, r.DownsideFloorBudget, moved, r.Budget)
 }
 
 // CVaRFloorFor is DownsideFloorFor for the CVaR floor.
 func (r Risk) CVaRFloorFor(moved float64) (float64, bool) {
-	return floorFor(r.CVaRFloor, r.CVaRFloorShare, moved)
+	return floorFor(r.CVaRFloor, r.CVaRFloorShare, r.CVaRFloorBudget, moved, r.Budget)
 }
 
-func floorFor(abs, share *float64, moved float64) (float64, bool) {
+// floorFor is the highest (binding) of the floors given: absolute, as a
+// share of the money moved, as a share of the budget.
+func floorFor(abs, share, budgetShare *float64, moved, budget float64) (float64, bool) {
 	f, ok := math.Inf(-1), false
 	if abs != nil {
 		f, ok = *abs, true
 	}
 	if share != nil {
 		f, ok = max(f, *share*moved), true
+	}
+	if budgetShare != nil {
+		f, ok = max(f, *budgetShare*budget), true
 	}
 	return f, ok
 }
@@ -112,19 +128,49 @@ const (
 
 // EvidenceRules say what each kind of evidence does.
 type EvidenceRules struct {
-	OnFail          Action                           `yaml:"on_fail"`
-	OnWarn          Action                           `yaml:"on_warn"`
-	ExplorationBand float64                          `yaml:"exploration_band"`
-	Families        map[validation.Family]ActionRule `yaml:"families"`
-	Checks          map[string]ActionRule            `yaml:"checks"`
-	Waivers         map[string]WaiverRight           `yaml:"waivers"`
+	OnFail          Action  `yaml:"on_fail"`
+	OnWarn          Action  `yaml:"on_warn"`
+	ExplorationBand float64 `yaml:"exploration_band"`
+	// FalseAlarm is the rate at which a family of tested checks fails
+	// (and warns) when the fitted model is right; a family's own
+	// false_alarm overrides it. Absent: fail 0.05, warn 0.20. See
+	// RatesFor.
+	FalseAlarm *Rates                           `yaml:"false_alarm"`
+	Families   map[validation.Family]ActionRule `yaml:"families"`
+	Checks     map[string]ActionRule            `yaml:"checks"`
+	Waivers    map[string]WaiverRight           `yaml:"waivers"`
+}
+
+// Rates are false-alarm rates: the probability that a family of checks
+// fails (warns) on a right model, shared over the family's checks.
+type Rates struct {
+	Fail float64 `yaml:"fail"`
+	Warn float64 `yaml:"warn"`
 }
 
 // ActionRule overrides the actions for a family or a named check; an empty
-// field inherits.
+// field inherits. FalseAlarm (families only) overrides the rates.
 type ActionRule struct {
-	OnFail Action `yaml:"on_fail"`
-	OnWarn Action `yaml:"on_warn"`
+	OnFail     Action `yaml:"on_fail"`
+	OnWarn     Action `yaml:"on_warn"`
+	FalseAlarm *Rates `yaml:"false_alarm"`
+	// RawLimit (named checks only) grades the check by this raw limit on
+	// its metric instead of its false-alarm rate: {warn, fail}, warn above
+	// fail when smaller is worse.
+	RawLimit *validation.Limit `yaml:"raw_limit"`
+}
+
+// RatesFor returns family f's false-alarm rates under the policy, as
+// validation.Grade takes them: the family's own, else the policy's, else
+// validation.DefaultRates.
+func (e EvidenceRules) RatesFor(f validation.Family) validation.Limit {
+	if r := e.Families[f].FalseAlarm; r != nil {
+		return validation.Limit{Warn: r.Warn, Fail: r.Fail}
+	}
+	if r := e.FalseAlarm; r != nil {
+		return validation.Limit{Warn: r.Warn, Fail: r.Fail}
+	}
+	return validation.DefaultRates(f)
 }
 
 // WaiverRight lists what a role may waive.
@@ -153,7 +199,7 @@ func (e EvidenceRules) ActionFor(c validation.Check) Action {
 	if a := pick(e.Families[c.Family]); a != "" {
 		return a
 	}
-	if a := pick(ActionRule{e.OnFail, e.OnWarn}); a != "" {
+	if a := pick(ActionRule{OnFail: e.OnFail, OnWarn: e.OnWarn}); a != "" {
 		return a
 	}
 	if c.Status == validation.Fail {
@@ -516,6 +562,14 @@ func (p *Policy) check() *problem {
 	if finite(r.CVaRLevel, "risk", "cvar_level") && !(r.CVaRLevel > 0 && r.CVaRLevel <= 0.5) {
 		bad(fmt.Sprintf("must be a tail share in (0, 0.5] (e.g. 0.05), got %v", r.CVaRLevel), "risk", "cvar_level")
 	}
+	for _, b := range []struct {
+		v   *float64
+		key string
+	}{{r.DownsideFloorBudget, "downside_floor_budget_share"}, {r.CVaRFloorBudget, "cvar_floor_budget_share"}} {
+		if optFinite(b.v, "risk", b.key) && b.v != nil && (*b.v < -1 || *b.v > 1) {
+			bad(fmt.Sprintf("must be a share of the quarter's media budget in [-1, 1] (-0.005 = lose at most 0.5%%), got %v", *b.v), "risk", b.key)
+		}
+	}
 	optFinite(r.CVaRFloor, "risk", "cvar_floor")
 	if optFinite(r.CVaRFloorShare, "risk", "cvar_floor_share") && r.CVaRFloorShare != nil &&
 		(*r.CVaRFloorShare < -1 || *r.CVaRFloorShare > 1) {
@@ -551,14 +605,36 @@ func (p *Policy) check() *problem {
 	if finite(e.ExplorationBand, "evidence", "exploration_band") && !(e.ExplorationBand >= 0 && e.ExplorationBand <= 1) {
 		bad(fmt.Sprintf("must be a share of current spend in [0, 1] (0.10 = ±10%%), got %v", e.ExplorationBand), "evidence", "exploration_band")
 	}
+	rates := func(r *Rates, path ...any) {
+		if r == nil {
+			return
+		}
+		if !(r.Fail > 0 && r.Fail < 1) {
+			bad(fmt.Sprintf("fail must be a rate in (0, 1) (0.05 = a right model fails 1 time in 20), got %v", r.Fail), append(path, "fail")...)
+		}
+		if !(r.Warn >= r.Fail && r.Warn < 1) {
+			bad(fmt.Sprintf("warn must be a rate in [fail, 1), got %v", r.Warn), append(path, "warn")...)
+		}
+	}
+	rates(e.FalseAlarm, "evidence", "false_alarm")
 	for _, f := range sortedKeys(e.Families) {
 		if !knownFamily(f) {
 			bad(unknownFamily(f), "evidence", "families", string(f))
+		}
+		rates(e.Families[f].FalseAlarm, "evidence", "families", string(f), "false_alarm")
+		if e.Families[f].RawLimit != nil {
+			bad("raw_limit is set per check (evidence.checks.NAME.raw_limit), not per family", "evidence", "families", string(f), "raw_limit")
 		}
 		action(e.Families[f].OnFail, "evidence", "families", string(f), "on_fail")
 		action(e.Families[f].OnWarn, "evidence", "families", string(f), "on_warn")
 	}
 	for _, n := range sortedKeys(e.Checks) {
+		if l := e.Checks[n].RawLimit; l != nil && (math.IsNaN(l.Warn) || math.IsInf(l.Warn, 0) || math.IsNaN(l.Fail) || math.IsInf(l.Fail, 0)) {
+			bad("raw_limit warn and fail must be finite numbers", "evidence", "checks", n, "raw_limit")
+		}
+		if e.Checks[n].FalseAlarm != nil {
+			bad("false_alarm is set per family (evidence.families.F.false_alarm), not per check", "evidence", "checks", n, "false_alarm")
+		}
 		action(e.Checks[n].OnFail, "evidence", "checks", n, "on_fail")
 		action(e.Checks[n].OnWarn, "evidence", "checks", n, "on_warn")
 	}

@@ -172,11 +172,42 @@ func TestPresets(t *testing.T) {
 	if !(c.Support.HighMultiple < s.Support.HighMultiple && s.Support.HighMultiple < x.Support.HighMultiple) {
 		t.Error("support multiples are not ordered cautious < standard < exploratory")
 	}
-	if !(*c.Risk.DownsideFloorShare > *s.Risk.DownsideFloorShare && *s.Risk.DownsideFloorShare > *x.Risk.DownsideFloorShare) {
+	if !(*c.Risk.DownsideFloorBudget > *s.Risk.DownsideFloorBudget && *s.Risk.DownsideFloorBudget > *x.Risk.DownsideFloorBudget) {
 		t.Error("downside floors are not ordered cautious > standard > exploratory")
+	}
+	if !(*c.Risk.CVaRFloorBudget > *s.Risk.CVaRFloorBudget && *s.Risk.CVaRFloorBudget > *x.Risk.CVaRFloorBudget) {
+		t.Error("CVaR floors are not ordered cautious > standard > exploratory")
+	}
+	// A more cautious policy acts on weaker evidence: a higher false-alarm rate.
+	if !(c.Evidence.FalseAlarm.Fail > s.Evidence.FalseAlarm.Fail && s.Evidence.FalseAlarm.Fail > x.Evidence.FalseAlarm.Fail) {
+		t.Error("false-alarm rates are not ordered cautious > standard > exploratory")
 	}
 	if _, err := Preset("reckless"); err == nil || !strings.Contains(err.Error(), "standard") {
 		t.Errorf("unknown preset: %v, want a refusal listing the presets", err)
+	}
+}
+
+// TestBudgetFloors: a floor set as a share of the quarter's budget is that
+// share of Risk.Budget, and the highest floor binds (arithmetic).
+func TestBudgetFloors(t *testing.T) {
+	r := Risk{DownsideFloorBudget: ptr(-0.005), DownsideFloorShare: ptr(-0.05), Budget: 2_000_000}
+	if f, ok := r.DownsideFloorFor(100_000); !ok || f != -5000 {
+		t.Errorf("floor %v (%v): want -10,000 budget floor against -5,000 moved floor: the higher, -5,000", f, ok)
+	}
+	if f, _ := r.DownsideFloorFor(1_000_000); f != -10000 {
+		t.Errorf("floor %v, want the budget floor -10,000 over the moved floor -50,000", f)
+	}
+	for _, bad := range []string{"cvar_floor_budget_share: -2", "downside_floor_budget_share: .nan"} {
+		_, err := Parse([]byte(strings.Replace(base, "risk:\n", "risk:\n  "+bad+"\n", 1)), "p.yaml")
+		if err == nil || !strings.Contains(err.Error(), "budget_share") {
+			t.Errorf("%s: %v, want a refusal naming the key", bad, err)
+		}
+	}
+	for _, bad := range []string{"false_alarm: {fail: 0, warn: 0.2}", "false_alarm: {fail: 0.2, warn: 0.1}"} {
+		_, err := Parse([]byte(strings.Replace(base, "evidence:\n", "evidence:\n  "+bad+"\n", 1)), "p.yaml")
+		if err == nil || !strings.Contains(err.Error(), "false_alarm") {
+			t.Errorf("%s: %v, want a refusal at evidence.false_alarm", bad, err)
+		}
 	}
 }
 

@@ -12,7 +12,9 @@ import (
 	"errors"
 	"fmt"
 	"slices"
+	"strings"
 
+	"sluice/decision"
 	"sluice/gate"
 	"sluice/internal/sample"
 	"sluice/model"
@@ -29,6 +31,9 @@ type Problem struct {
 	Design   *model.Design // built from Panel with the usual spec
 	Plan     *optimize.Plan
 	Policies []*policies.Policy
+	// Lifts are the user's lift tests; each world gets its own, simulated
+	// from its truth with the same windows and standard errors.
+	Lifts []validation.LiftTest
 }
 
 // Settings say how many worlds and how large each world's decision is. The
@@ -65,6 +70,22 @@ type Sizes struct {
 	WorldDraws int `json:"world_draws"`
 	Replicates int `json:"validation_replicates"`
 	Horizon    int `json:"horizon_weeks"`
+	// Shrunk names each size smaller in a world than in propose's own
+	// decision (package decision's defaults), so a reader knows the
+	// rehearsal's decisions are noisier than the real one.
+	Shrunk []string `json:"shrunk,omitempty"`
+}
+
+// shrunk says which sizes are below propose's.
+func (z Sizes) shrunk() []string {
+	var out []string
+	if z.WorldDraws < decision.DefaultBootstrapDraws {
+		out = append(out, fmt.Sprintf("bootstrap draws %d per world (propose: %d)", z.WorldDraws, decision.DefaultBootstrapDraws))
+	}
+	if z.Replicates < decision.DefaultReplicates {
+		out = append(out, fmt.Sprintf("recovery panels %d per world (propose: %d)", z.Replicates, decision.DefaultReplicates))
+	}
+	return out
 }
 
 func (s Settings) withDefaults() Settings {
@@ -107,11 +128,40 @@ type Outcome struct {
 	Seed         uint64   `json:"seed"` // of the world's decision (fit, bootstrap, validation, allocation)
 	Checks       int      `json:"checks"`
 	FailedChecks []string `json:"failed_checks"` // name/scope of each failed check
-	Oracle       Score    `json:"oracle"`        // the best plan under the truth, same constraints
-	Raw          Score    `json:"raw"`           // the allocator's proposal
-	Policies     []Score  `json:"policies"`      // each policy's approved plan, in Problem order
-	Err          string   `json:"error,omitempty"`
+	// Stated is, per tested check name, the false-alarm rate it was
+	// graded at (the sum over its channels of each check's rate, default
+	// rates); checks without a p-value are absent.
+	Stated map[string]float64 `json:"stated_rates,omitempty"`
+	// Untested are the failed checks of a testing kind that carry no
+	// p-value (name/scope): the channel's effect is fitted to zero (they
+	// fail so as not to pass by comparing 0 with 0), or the null could not
+	// be measured and the raw limit graded them. They are not a test's
+	// false alarms and are counted apart.
+	Untested []string `json:"failed_untested,omitempty"`
+	Oracle   Score    `json:"oracle"`   // the best plan under the truth, same constraints
+	Raw      Score    `json:"raw"`      // the allocator's proposal
+	Policies []Score  `json:"policies"` // each policy's approved plan, in Problem order
+	Err      string   `json:"error,omitempty"`
+	// Stage is where a world that could not be decided failed (input, fit,
+	// bootstrap, validation, allocation, oracle, gate); "" when decided.
+	Stage string `json:"failed_stage,omitempty"`
 }
+
+// Failure counts the worlds that failed at one stage, with their distinct
+// reasons (the first few, each with its worlds).
+type Failure struct {
+	Stage   string   `json:"stage"`
+	Worlds  int      `json:"worlds"`
+	Reasons []string `json:"reasons"`
+}
+
+// maxReasons caps the distinct reasons kept per stage.
+const maxReasons = 5
+
+// LoudShare is the share of failed worlds above which a rehearsal's
+// figures are said to be in doubt: they cover only the worlds that were
+// decided, which may not be like the others (common practice, no source).
+const LoudShare = 0.10
 
 // Summary sums up one way of deciding over the worlds.
 type Summary struct {
@@ -141,6 +191,79 @@ type Result struct {
 	// FailedShare is the mean share of failed checks per world kind.
 	FailedShare map[Kind]float64 `json:"failed_check_share"`
 	Errors      int              `json:"errors"` // worlds whose decision could not run, left out
+	Decided     int              `json:"decided"`
+	// Failures are the worlds that could not be decided, by stage; every
+	// one is here, none is dropped silently.
+	Failures []Failure `json:"failures"`
+	// Checks are each check's realised false-alarm rate (well-specified
+	// worlds) and power (per misspecified kind), graded at the default
+	// false-alarm rates.
+	Checks []CheckRate `json:"checks"`
+}
+
+// CheckRate is how often one check (over all channels) failed. A check
+// that failed because a channel's effect was fitted to zero ("not judged")
+// is not counted: it is not a test's alarm.
+type CheckRate struct {
+	Name string `json:"name"`
+	// Stated is the mean rate it was graded at in well-specified worlds:
+	// what it should fire at there; 0 for a check without a p-value
+	// (precision measures and raw thresholds).
+	Stated float64 `json:"stated_rate"`
+	// FalseAlarm is the share of well-specified worlds where it failed for
+	// some channel; Worlds counts those worlds.
+	FalseAlarm float64 `json:"false_alarm_rate"`
+	Worlds     int     `json:"well_specified_worlds"`
+	// Untested is the share of well-specified worlds where it failed
+	// without a p-value (Outcome.Untested): a channel fitted to zero.
+	Untested float64 `json:"untested_share"`
+	// Power is, per misspecified kind, the share of its worlds where it
+	// failed for the affected channel (or globally, for a global check).
+	Power map[Kind]float64 `json:"power,omitempty"`
+}
+
+// FailedShareOfWorlds is the share of worlds that could not be decided.
+func (r *Result) FailedShareOfWorlds() float64 {
+	if n := r.Decided + r.Errors; n > 0 {
+		return float64(r.Errors) / float64(n)
+	}
+	return 0
+}
+
+// Loud says whether so many worlds failed (more than LoudShare) that the
+// figures must be read with that warning.
+func (r *Result) Loud() bool { return r.FailedShareOfWorlds() > LoudShare }
+
+// WorldOf builds world i of the rehearsal (p, s) alone, exactly as Run
+// builds it: to rerun one world's decision outside the rehearsal.
+func WorldOf(ctx context.Context, p Problem, s Settings, i int) (*World, error) {
+	s = s.withDefaults()
+	b, err := newBase(ctx, p, s)
+	if err != nil {
+		return nil, err
+	}
+	return b.world(s.Seed, i, s.Misspecified, s.Kinds), nil
+}
+
+func newBase(ctx context.Context, p Problem, s Settings) (*base, error) {
+	bs := &uncertainty.Bootstrap{Design: p.Design, Y: p.Panel.KPI, Draws: s.BaseDraws, Seed: s.Seed, Workers: s.Workers}
+	d, err := bs.Run(ctx)
+	if err != nil {
+		return nil, fmt.Errorf("rehearsal: bootstrap of the data: %w", err)
+	}
+	full := d.Header.FullFit.Params
+	resid := make([]float64, p.Design.N)
+	for t, v := range p.Design.Predict(full) {
+		resid[t] = p.Panel.KPI[t] - v
+	}
+	b := &base{panel: p.Panel, design: p.Design, draws: d.Params(), resid: resid, block: d.Header.BlockLength, horiz: p.Plan.HorizonWeeks}
+	if s.truthFromFit {
+		b.draws = []model.Params{full}
+	}
+	if len(b.draws) == 0 {
+		return nil, errors.New("rehearsal: every refit of the data's bootstrap failed")
+	}
+	return b, nil
 }
 
 // Run rehearses p. Worlds run one after another; each uses Workers.
@@ -156,24 +279,12 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 	}
 	s = s.withDefaults()
 	h := p.Plan.HorizonWeeks
-	bs := &uncertainty.Bootstrap{Design: p.Design, Y: p.Panel.KPI, Draws: s.BaseDraws, Seed: s.Seed, Workers: s.Workers}
-	d, err := bs.Run(ctx)
+	b, err := newBase(ctx, p, s)
 	if err != nil {
-		return nil, fmt.Errorf("rehearsal: bootstrap of the data: %w", err)
-	}
-	full := d.Header.FullFit.Params
-	resid := make([]float64, p.Design.N)
-	for t, v := range p.Design.Predict(full) {
-		resid[t] = p.Panel.KPI[t] - v
-	}
-	b := &base{panel: p.Panel, design: p.Design, draws: d.Params(), resid: resid, block: d.Header.BlockLength, horiz: h}
-	if s.truthFromFit {
-		b.draws = []model.Params{full}
-	}
-	if len(b.draws) == 0 {
-		return nil, errors.New("rehearsal: every refit of the data's bootstrap failed")
+		return nil, err
 	}
 	res := &Result{Seed: s.Seed, Sizes: Sizes{BaseDraws: s.BaseDraws, WorldDraws: s.WorldDraws, Replicates: s.Replicates, Horizon: h}}
+	res.Sizes.Shrunk = res.Sizes.shrunk()
 	for i := range s.Worlds {
 		if err := ctx.Err(); err != nil {
 			return nil, err
@@ -190,7 +301,11 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 			return nil, ctx.Err()
 		}
 		if err != nil {
-			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Err: err.Error()}
+			st := string(decision.StageOf(err))
+			if st == "" {
+				st = "other"
+			}
+			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Err: err.Error(), Stage: st}
 		}
 		res.Worlds = append(res.Worlds, *out)
 		if s.Progress != nil {
@@ -251,70 +366,63 @@ func Merge(seed uint64, sizes Sizes, policies []string, worlds, shards int, part
 	return res, nil
 }
 
-// decideWorld runs the decision process on w's panel and scores each plan
-// under w's truth.
+// decideWorld runs the decision pipeline (package decision, exactly what
+// propose runs) on w's panel and scores each plan under w's truth.
 func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome, error) {
 	dw, err := model.NewDesign(w.Panel, p.Design.Spec)
 	if err != nil {
+		return nil, &decision.Error{Stage: decision.StageInput, Err: err}
+	}
+	lifts := worldLifts(w, p.Lifts)
+	if len(lifts) > 0 {
+		// As propose does with --lifts: every fit of the world is calibrated
+		// with its lift tests.
+		rows := make([]model.Lift, len(lifts))
+		for i, l := range lifts {
+			rows[i] = model.Lift{Channel: l.ChannelIndex, From: l.From, To: l.To, Incremental: l.Incremental, StdError: l.StdError}
+		}
+		if dw, err = dw.WithLifts(rows); err != nil {
+			return nil, &decision.Error{Stage: decision.StageInput, Err: err}
+		}
+	}
+	in := decision.Input{Panel: w.Panel, Design: dw, Plan: p.Plan, Lifts: lifts}
+	prep, err := decision.Prepare(ctx, in, decision.Settings{Seed: w.Seed, Workers: s.Workers,
+		BootstrapDraws: s.WorldDraws, Replicates: s.Replicates})
+	if err != nil {
 		return nil, err
 	}
-	y := w.Panel.KPI
-	fit, err := dw.Fit(y, model.FitSettings{Seed: w.Seed, Workers: s.Workers})
-	if err != nil {
-		return nil, fmt.Errorf("fit: %w", err)
-	}
-	bs := &uncertainty.Bootstrap{Design: dw, Y: y, Draws: s.WorldDraws, Seed: w.Seed, Workers: s.Workers, Full: fit}
-	bd, err := bs.Run(ctx)
-	if err != nil {
-		return nil, fmt.Errorf("bootstrap: %w", err)
-	}
-	draws := bd.Params()
-	if len(draws) == 0 {
-		return nil, errors.New("bootstrap: every refit failed")
-	}
-	th := validation.DefaultThresholds()
-	th.BreakEven = p.Plan.BreakEvenMROI() // the plan's own break-even, as propose uses
-	val, err := validation.Run(validation.Problem{Panel: w.Panel, Design: dw, Fit: fit,
-		Draws: &validation.Draws{Params: draws, Failed: bd.Failed()}},
-		th, validation.Settings{Seed: w.Seed, Workers: s.Workers,
-			Replicates: s.Replicates, ValuePerKPI: p.Plan.ValuePerKPI})
-	if err != nil {
-		return nil, fmt.Errorf("validation: %w", err)
-	}
+	val := prep.Validation
 	out := &Outcome{Index: w.Index, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Checks: len(val.Evidence.Checks)}
 	for _, c := range val.Evidence.Checks {
 		if c.Status == validation.Fail {
 			out.FailedChecks = append(out.FailedChecks, c.Name+"/"+c.Scope)
+			if c.PValue == nil && validation.IsTest(c.Name) {
+				out.Untested = append(out.Untested, c.Name+"/"+c.Scope)
+			}
+		}
+		if c.PValue != nil && !c.RawThreshold {
+			if out.Stated == nil {
+				out.Stated = map[string]float64{}
+			}
+			out.Stated[c.Name] += c.Rate
 		}
 	}
 
 	names := dw.Spec.ChannelNames()
 	h := p.Plan.HorizonWeeks
-	econ := optimize.Economics{Horizon: h, Margin: p.Plan.Margin, ValuePerKPI: p.Plan.ValuePerKPI}
-	solve := func(resp, point optimize.Response) (*optimize.Result, []float64, error) {
-		prob, err := p.Plan.Resolve(names, dw.CurrentSpend())
-		if err != nil {
-			return nil, nil, err
-		}
-		prob.Response, prob.Point = resp, point
-		r, err := optimize.Solve(*prob, &optimize.Settings{Seed: w.Seed, Workers: s.Workers})
-		if err != nil {
-			return nil, nil, err
-		}
-		cur := make([]float64, len(prob.Constraints.Channels))
-		for k, l := range prob.Constraints.Channels {
-			cur[k] = l.Current
-		}
-		return r, cur, nil
-	}
-	raw, current, err := solve(dw.NewCurves(draws, h), dw.NewCurves([]model.Params{fit.Params}, h))
+	econ := prep.Economics
+	current := prep.Current
+	// The truth is the world's own response (truth.go), not the model's
+	// curves of w.Truth.
+	truth := w.trueResponse(h)
+	prob, err := p.Plan.Resolve(names, dw.CurrentSpend())
 	if err != nil {
-		return nil, fmt.Errorf("allocation: %w", err)
+		return nil, &decision.Error{Stage: decision.StageAllocation, Err: err}
 	}
-	truth := dw.NewCurves([]model.Params{w.Truth}, h)
-	oracle, _, err := solve(truth, nil)
+	prob.Response = truth
+	oracle, err := optimize.Solve(*prob, &optimize.Settings{Seed: w.Seed, Workers: s.Workers})
 	if err != nil {
-		return nil, fmt.Errorf("oracle allocation: %w", err)
+		return nil, &decision.Error{Stage: "oracle", Err: err}
 	}
 	og := econ.Gains(nil, truth, oracle.Proposed, current)[0]
 	score := func(plan []float64) Score {
@@ -326,21 +434,13 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 		return sc
 	}
 	out.Oracle = score(oracle.Proposed)
-	out.Raw = score(raw.Proposed)
-
-	low, high := dw.Support()
-	support := make([]gate.SupportRange, len(low))
-	for k := range low {
-		support[k] = gate.SupportRange{Low: low[k], High: high[k]}
-	}
-	curves := dw.NewCurves(draws, h)
+	out.Raw = score(prep.Proposed)
 	for _, pol := range p.Policies {
-		gd, err := gate.Run(gate.Review{Channels: names, Current: current, Proposed: raw.Proposed,
-			Response: curves, Economics: econ, Support: support, Evidence: val.Evidence, Policy: pol},
-			gate.Settings{Workers: s.Workers})
+		dec, err := prep.Judge(pol, nil)
 		if err != nil {
-			return nil, fmt.Errorf("gate (%s): %w", pol.Name, err)
+			return nil, fmt.Errorf("%s: %w", pol.Name, err)
 		}
+		gd := dec.Gate
 		sc := score(gd.ApprovedPlan)
 		sc.Verdict = gd.Verdict
 		for _, cu := range gd.Checks {
@@ -353,6 +453,24 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	return out, nil
 }
 
+// worldLifts simulates the user's lift tests in world w: the same channels,
+// windows and standard errors, the incremental KPI the world's truth gives
+// over the window plus normal noise of the test's standard error (one
+// stream per world).
+func worldLifts(w *World, lifts []validation.LiftTest) []validation.LiftTest {
+	if len(lifts) == 0 {
+		return nil
+	}
+	rng := uncertainty.Stream(w.Seed^0x11f7, 0)
+	out := make([]validation.LiftTest, len(lifts))
+	for i, l := range lifts {
+		l.Incremental = w.LiftTruth(l.ChannelIndex, l.From, l.To) + l.StdError*rng.NormFloat64()
+		l.Source = "simulated from the world's truth"
+		out[i] = l
+	}
+	return out
+}
+
 func (r *Result) summarize(policies []string) {
 	r.Raw = Summary{Name: "raw"}
 	r.Policies = make([]Summary, len(policies))
@@ -360,11 +478,29 @@ func (r *Result) summarize(policies []string) {
 		r.Policies[j] = Summary{Name: name}
 	}
 	checks := map[Kind][2]float64{} // Σ failed share, worlds
+	r.Errors, r.Decided, r.Failures = 0, 0, []Failure{}
+	byStage := map[string]int{}
 	for _, o := range r.Worlds {
 		if o.Err != "" {
 			r.Errors++
+			st := o.Stage
+			if st == "" {
+				st = "other"
+			}
+			j, ok := byStage[st]
+			if !ok {
+				j = len(r.Failures)
+				byStage[st] = j
+				r.Failures = append(r.Failures, Failure{Stage: st})
+			}
+			f := &r.Failures[j]
+			f.Worlds++
+			if len(f.Reasons) < maxReasons {
+				f.Reasons = append(f.Reasons, fmt.Sprintf("world %d (%s): %s", o.Index, o.Kind, o.Err))
+			}
 			continue
 		}
+		r.Decided++
 		r.Raw.add(o.Kind, o.Raw, o.Oracle.TrueGain)
 		for j := range r.Policies {
 			r.Policies[j].add(o.Kind, o.Policies[j], o.Oracle.TrueGain)
@@ -376,10 +512,12 @@ func (r *Result) summarize(policies []string) {
 		c[1]++
 		checks[o.Kind] = c
 	}
+	slices.SortFunc(r.Failures, func(a, b Failure) int { return b.Worlds - a.Worlds })
 	r.Raw.finish()
 	for j := range r.Policies {
 		r.Policies[j].finish()
 	}
+	r.Checks = checkRates(r.Worlds)
 	r.FailedShare = map[Kind]float64{}
 	for k, c := range checks {
 		r.FailedShare[k] = c[0] / c[1]
@@ -431,4 +569,96 @@ func (s *Summary) finish() {
 	for _, sub := range s.ByWorldKind {
 		sub.finish()
 	}
+}
+
+// checkRates measures each check's realised false-alarm rate and power.
+func checkRates(worlds []Outcome) []CheckRate {
+	type acc struct {
+		stated             float64
+		well, fired, unjud int
+		kindN, kindF       map[Kind]int
+	}
+	m := map[string]*acc{}
+	get := func(name string) *acc {
+		a := m[name]
+		if a == nil {
+			a = &acc{kindN: map[Kind]int{}, kindF: map[Kind]int{}}
+			m[name] = a
+		}
+		return a
+	}
+	for _, o := range worlds {
+		if o.Err != "" {
+			continue
+		}
+		for name := range o.Stated {
+			get(name)
+		}
+		for _, f := range o.FailedChecks {
+			get(checkName(f))
+		}
+	}
+	for _, o := range worlds {
+		if o.Err != "" {
+			continue
+		}
+		fired := map[string]bool{}     // any channel
+		firedHere := map[string]bool{} // the affected channel, or global
+		unjudged := map[string]bool{}
+		for _, f := range o.FailedChecks {
+			name := checkName(f)
+			if slices.Contains(o.Untested, f) {
+				unjudged[name] = true
+				continue
+			}
+			fired[name] = true
+			scope := f[len(name)+1:]
+			if scope == o.Channel || scope == validation.Global {
+				firedHere[name] = true
+			}
+		}
+		for name, a := range m {
+			if o.Kind == WellSpecified {
+				a.well++
+				a.stated += o.Stated[name]
+				if fired[name] {
+					a.fired++
+				}
+				if unjudged[name] {
+					a.unjud++
+				}
+				continue
+			}
+			a.kindN[o.Kind]++
+			if firedHere[name] {
+				a.kindF[o.Kind]++
+			}
+		}
+	}
+	var out []CheckRate
+	for name, a := range m {
+		cr := CheckRate{Name: name, Worlds: a.well}
+		if a.well > 0 {
+			cr.Stated = a.stated / float64(a.well)
+			cr.FalseAlarm = float64(a.fired) / float64(a.well)
+			cr.Untested = float64(a.unjud) / float64(a.well)
+		}
+		for k, n := range a.kindN {
+			if cr.Power == nil {
+				cr.Power = map[Kind]float64{}
+			}
+			cr.Power[k] = float64(a.kindF[k]) / float64(n)
+		}
+		out = append(out, cr)
+	}
+	slices.SortFunc(out, func(a, b CheckRate) int { return strings.Compare(a.Name, b.Name) })
+	return out
+}
+
+// checkName is the check's name in "name/scope" (names hold a slash too).
+func checkName(f string) string {
+	if i := strings.LastIndex(f, "/"); i > 0 {
+		return f[:i]
+	}
+	return f
 }

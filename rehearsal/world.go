@@ -20,8 +20,8 @@ const (
 	WellSpecified Kind = "none"       // the model's own form, parameters from a bootstrap draw
 	Drift         Kind = "drift"      // β trends linearly to ±30% of its start by the last week
 	Season        Kind = "season"     // β varies ±40% over the year with a random phase
-	Carryover     Kind = "carryover"  // true decay differs by 0.35 from the drawn one
-	Shape         Kind = "shape"      // true Hill shape differs by about 1.5 (Hill channels only)
+	Carryover     Kind = "carryover"  // the channel's carryover is fast and slow at once: a kernel no geometric or delayed-peak adstock expresses
+	Shape         Kind = "shape"      // nothing responds below a threshold of adstock: a curve no Hill or exponential saturation expresses
 	Confounder    Kind = "confounder" // an unobserved driver correlated 0.7 with the channel's spend adds to the KPI
 	Break         Kind = "break"      // β jumps ×0.5 or ×1.5 and the base shifts ±5% 8–20 weeks before the end
 )
@@ -30,10 +30,11 @@ const (
 var AllKinds = []Kind{Drift, Season, Carryover, Shape, Confounder, Break}
 
 const (
-	driftSize      = 0.30
-	seasonSize     = 0.40
-	carryoverShift = 0.35
-	shapeShift     = 1.5
+	driftSize  = 0.30
+	seasonSize = 0.40
+	// shapeThreshold is the shape world's threshold as a share of the
+	// channel's mean adstock over the history.
+	shapeThreshold = 0.5
 	confounderCorr = 0.7
 	confounderSize = 0.5 // SD of the driver as a share of the channel's mean contribution
 	breakSize      = 0.5
@@ -47,12 +48,42 @@ type World struct {
 	Channel string // the affected channel; "" for WellSpecified
 	Draw    int    // the base bootstrap draw its parameters come from
 	Seed    uint64 // seeds the decision process run on the world
-	// Truth is the true response a plan for the horizon meets: the
-	// end-of-history truth (after a drift or break), and for a season the
-	// channel's mean effectiveness over the horizon's own weeks. A
-	// confounder is not caused by spend, so it is not in the truth.
+	// Truth is the drawn model parameters with the affected channel's β
+	// as the horizon meets it: the end-of-history β (after a drift or
+	// break), and for a season the channel's mean over the horizon's own
+	// weeks. In a carryover or shape world the true response is outside the
+	// model's family and Truth is only its nearest description; the true
+	// gains come from the world's own response (trueChannels). A confounder
+	// is not caused by spend, so it is not in the truth.
 	Truth model.Params
 	Panel *model.Panel
+	// chans is every channel's true response for the horizon, computed by
+	// this package's own code (truth.go).
+	chans []trueChannel
+
+	histChans []trueChannel // the responses the history was drawn from, before β's changes
+	affected  int           // index of the affected channel
+	mult      []float64     // per week of history, the factor on its β
+}
+
+// trueResponse is the world's horizon response for a horizon of h weeks.
+func (w *World) trueResponse(h int) *trueResponse {
+	return newTrueResponse(w.chans, w.Panel.Spend, h)
+}
+
+// LiftTruth is what a lift test of channel k over weeks [from, to] of the
+// history measures in this world, by the world's own response (truth.go):
+// the affected channel's β week by week as the history had it. A
+// confounder is not caused by spend and is not measured by an experiment.
+func (w *World) LiftTruth(k, from, to int) float64 {
+	beta := make([]float64, len(w.Panel.KPI))
+	for t := range beta {
+		beta[t] = w.histChans[k].beta
+		if k == w.affected && w.mult != nil {
+			beta[t] *= w.mult[t]
+		}
+	}
+	return w.histChans[k].liftEffect(w.Panel.Spend[k], beta, from, to)
 }
 
 // base is what every world starts from: the user's panel and design, the
@@ -81,9 +112,6 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 	k := rng.IntN(nk)
 	if rng.Float64() < misspecified && len(kinds) > 0 {
 		w.Kind = kinds[rng.IntN(len(kinds))]
-		if w.Kind == Shape && d.Spec.Channels[k].Saturation != model.SaturationHill {
-			w.Kind = Carryover // no Hill shape to change on this channel
-		}
 		w.Channel = d.Spec.Channels[k].Name
 	}
 	sign := 1.0
@@ -99,6 +127,10 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 	end := 1.0
 	extra := make([]float64, n) // added to the KPI, not caused by spend
 	cp := &p.Channels[k]
+	chans := make([]trueChannel, nk)
+	for j := range chans {
+		chans[j] = newTrueChannel(d, j, p.Channels[j])
+	}
 	switch w.Kind {
 	case Drift:
 		for t := range mult {
@@ -117,17 +149,10 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 			end += at(t) / float64(b.horiz)
 		}
 	case Carryover:
-		if cp.Decay < 0.45 {
-			cp.Decay += carryoverShift
-		} else {
-			cp.Decay -= carryoverShift
-		}
+		chans[k].kernel = twoSpeed(chans[k].kernel)
 	case Shape:
-		if cp.Shape < 1.75 {
-			cp.Shape += shapeShift
-		} else {
-			cp.Shape = max(0.5, cp.Shape-shapeShift)
-		}
+		a, _ := meanSD(chans[k].adstock(d.Spend[k]))
+		chans[k].threshold = shapeThreshold * a
 	case Confounder:
 		x := d.Spend[k]
 		mx, sx := meanSD(x)
@@ -157,16 +182,34 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 		end = f
 	}
 
-	// The truth KPI: the model's form with channel k's β scaled week by
-	// week, the extra terms and resampled residuals of the real fit.
-	y := d.Predict(withBeta(p, k, 0))
-	m := d.Media(make([]float64, n), k, *cp)
+	// The truth KPI: the base (intercept, trend, season, controls) of the
+	// drawn parameters, every channel's true media term (truth.go) with
+	// channel k's β scaled week by week, the extra terms and resampled
+	// residuals of the real fit.
+	noMedia := p.Clone()
+	for j := range noMedia.Channels {
+		noMedia.Channels[j].Beta = 0
+	}
+	y := d.Predict(noMedia)
+	for j, c := range chans {
+		m := c.media(d.Spend[j])
+		for t := range y {
+			f := 1.0
+			if j == k {
+				f = mult[t]
+			}
+			y[t] += c.beta * f * m[t]
+		}
+	}
 	noise := uncertainty.Resampler{Method: uncertainty.MovingBlock, BlockLength: b.block}.
 		Residuals(make([]float64, n), b.resid, noiseRNG)
 	for t := range y {
-		y[t] = math.Max(0, y[t]+cp.Beta*mult[t]*m[t]+extra[t]+noise[t])
+		y[t] = math.Max(0, y[t]+extra[t]+noise[t])
 	}
 	w.Truth = withBeta(p, k, cp.Beta*end)
+	w.histChans, w.affected, w.mult = chans, k, mult
+	w.chans = append([]trueChannel(nil), chans...)
+	w.chans[k].beta = cp.Beta * end
 	panel := *b.panel
 	panel.Source = b.panel.Source + " (rehearsal world)"
 	panel.KPI = y

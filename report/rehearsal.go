@@ -26,6 +26,15 @@ func RenderRehearsal(w io.Writer, r *rehearsal.Result) error {
 	if r == nil {
 		return ErrNoRehearsal
 	}
+	decided := 0
+	for _, o := range r.Worlds {
+		if o.Err == "" {
+			decided++
+		}
+	}
+	if decided == 0 {
+		return fmt.Errorf("report: no world of the rehearsal was decided (%d failed); a page would summarize nothing", len(r.Worlds))
+	}
 	v, err := newRehearsalView(r)
 	if err != nil {
 		return err
@@ -59,10 +68,20 @@ type rehearsalView struct {
 	Deciders              []string // column groups of the kind table
 	Kinds                 []kindRow
 	Errors                string
+	Failures              []string // per stage: count and the first reasons
+	CheckKinds            []string // misspecified kinds with a power column
+	CheckRows             []checkRow
+	Loud                  string // a warning when more than a tenth of the worlds failed
 }
 
 type summaryRow struct {
 	Name, Worlds, PLoss, Mean, P05, Oracle, Refused string
+}
+
+// checkRow is one check's stated and realised false-alarm rate and power.
+type checkRow struct {
+	Name, Stated, Realised string
+	Power                  []string // per CheckKinds
 }
 
 type kindRow struct {
@@ -128,8 +147,15 @@ func newRehearsalView(r *rehearsal.Result) (*rehearsalView, error) {
 		plural(n, "world", "worlds"), plural(r.Sizes.BaseDraws, "bootstrap draw", "bootstrap draws"), broke,
 		plural(r.Sizes.WorldDraws, "draw", "draws"), plural(r.Sizes.Replicates, "recovery panel", "recovery panels"), weeks, r.Seed)
 	if r.Errors > 0 {
-		v.Errors = fmt.Sprintf("%s could not be decided (fit, bootstrap or allocation failed) and are left out of every figure.",
-			plural(r.Errors, "world", "worlds"))
+		v.Errors = fmt.Sprintf("%s of %d could not be decided and are left out of every figure; by stage:",
+			plural(r.Errors, "world", "worlds"), r.Errors+r.Decided)
+		for _, f := range r.Failures {
+			v.Failures = append(v.Failures, fmt.Sprintf("%s: %s — %s", f.Stage, plural(f.Worlds, "world", "worlds"), strings.Join(f.Reasons, "; ")))
+		}
+	}
+	if r.Loud() {
+		v.Loud = fmt.Sprintf("%s of the worlds could not be decided (more than %s): the figures below cover only the worlds that could, which may not be like the others.",
+			pct(r.FailedShareOfWorlds()), pct(rehearsal.LoudShare))
 	}
 	for _, d := range ds {
 		s := d.sum
@@ -192,6 +218,28 @@ func newRehearsalView(r *rehearsal.Result) (*rehearsalView, error) {
 			row.Cells = append(row.Cells, pct(s.PLoss), pct(s.OracleShare))
 		}
 		v.Kinds = append(v.Kinds, row)
+	}
+	for _, k := range rehearsal.AllKinds {
+		if slices.ContainsFunc(r.Checks, func(c rehearsal.CheckRate) bool { _, ok := c.Power[k]; return ok }) {
+			v.CheckKinds = append(v.CheckKinds, string(k))
+		}
+	}
+	for _, c := range r.Checks {
+		row := checkRow{Name: c.Name, Stated: "not a test", Realised: "n/a"}
+		if c.Stated > 0 {
+			row.Stated = pct(c.Stated)
+		}
+		if c.Worlds > 0 {
+			row.Realised = pct(c.FalseAlarm)
+		}
+		for _, k := range v.CheckKinds {
+			if p, ok := c.Power[rehearsal.Kind(k)]; ok {
+				row.Power = append(row.Power, pct(p))
+			} else {
+				row.Power = append(row.Power, "n/a")
+			}
+		}
+		v.CheckRows = append(v.CheckRows, row)
 	}
 	return v, nil
 }

@@ -180,13 +180,14 @@ func TestRehearsalNoWorlds(t *testing.T) {
 	if err := report.RenderRehearsal(&bytes.Buffer{}, nil); err != report.ErrNoRehearsal {
 		t.Errorf("nil result: %v, want ErrNoRehearsal", err)
 	}
+	// A rehearsal with no decided world has nothing to summarize: the page
+	// is refused (issue 11), not drawn over zero worlds.
 	r := testRehearsal()
 	for i := range r.Worlds {
 		r.Worlds[i].Err = "fit failed"
 	}
-	page := string(renderRehearsal(t, r))
-	if !strings.Contains(page, "no gain to show") {
-		t.Error("a rehearsal with no decided world should say there is no gain to show")
+	if err := report.RenderRehearsal(&bytes.Buffer{}, r); err == nil {
+		t.Error("a rehearsal with no decided world was rendered")
 	}
 }
 
@@ -211,4 +212,32 @@ func byID(t testing.TB, doc *html.Node, id string) *html.Node {
 		t.Fatalf("%d elements with id %q, want 1", len(es), id)
 	}
 	return es[0]
+}
+
+// TestRehearsalPageRefusesZeroWorlds: a rehearsal where no world was
+// decided has nothing to summarize; the page is refused, not drawn over
+// zero worlds.
+func TestRehearsalPageRefusesZeroWorlds(t *testing.T) {
+	r := &rehearsal.Result{Errors: 1, Worlds: []rehearsal.Outcome{{Err: "fit: x", Stage: "fit"}}}
+	var b strings.Builder
+	if err := report.RenderRehearsal(&b, r); err == nil || !strings.Contains(err.Error(), "no world") {
+		t.Fatalf("err %v; want a refusal naming that no world was decided", err)
+	}
+	if b.Len() != 0 {
+		t.Errorf("wrote %d bytes of a page over zero worlds", b.Len())
+	}
+}
+
+// TestRehearsalPageShowsCheckRates: the page lists each check's stated and
+// realised false-alarm rate and its power, as the result holds them.
+func TestRehearsalPageShowsCheckRates(t *testing.T) {
+	r := testRehearsal()
+	r.Checks = []rehearsal.CheckRate{{Name: "stability/drift", Stated: 0.0167, FalseAlarm: 0.025, Worlds: 40,
+		Power: map[rehearsal.Kind]float64{rehearsal.Drift: 0.375}}}
+	page := string(renderRehearsal(t, r))
+	for _, want := range []string{`id="checks-table"`, "stability/drift", "1.7%", "2.5%", "37.5%"} {
+		if !strings.Contains(page, want) {
+			t.Errorf("page lacks %q", want)
+		}
+	}
 }

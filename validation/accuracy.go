@@ -110,7 +110,19 @@ type BacktestResult struct {
 // FoldWeeks apart ending FoldWeeks before the end, each fitted afresh on the
 // weeks before it and tested on the FoldWeeks after.
 func Backtest(d *model.Design, y []float64, set Settings) (*BacktestResult, error) {
+	return backtest(d, y, set, nil)
+}
+
+// backtest is Backtest; with warm, every fit starts from it alone (as the
+// simulated panels' fits do, so the two are compared like with like).
+func backtest(d *model.Design, y []float64, set Settings, warm *model.Params) (*BacktestResult, error) {
 	set = set.withDefaults()
+	fitHead := func(d *model.Design, y []float64, n int, set Settings) (*model.FitResult, error) {
+		if warm != nil {
+			return d.Head(n).Fit(y[:n], model.FitSettings{Seed: set.Seed, Warm: warm})
+		}
+		return fitHead(d, y, n, set)
+	}
 	h := set.HoldoutWeeks
 	r := &BacktestResult{TestWeeks: h, MinTrain: minTrain(d)}
 	nTrain := d.N - h
@@ -160,6 +172,59 @@ func Backtest(d *model.Design, y []float64, set Settings) (*BacktestResult, erro
 		set.progress("backtest", i+1, set.Folds)
 	}
 	return r, nil
+}
+
+// nullAccuracy adds the accuracy metrics of panel y to nv: the holdout's
+// and every backtest fold's, each fitted warm from p (the parameters the
+// panel was simulated from, refitted on it), with the same weeks, origins
+// and formulas as Backtest.
+func nullAccuracy(d *model.Design, y []float64, p model.Params, set Settings, nv *nullValues) {
+	h := set.HoldoutWeeks
+	nTrain := d.N - h
+	if nTrain < minTrain(d) || fixedIndependent(d, nTrain) != nil {
+		return
+	}
+	warm := model.FitSettings{Seed: set.Seed, Warm: &p}
+	head := func(n int) []float64 {
+		f, err := d.Head(n).Fit(y[:n], warm)
+		if err != nil {
+			return nil
+		}
+		return d.Predict(f.Params)
+	}
+	full := head(nTrain)
+	if full == nil {
+		return
+	}
+	m := Measure(y[nTrain:], full[nTrain:], y[:nTrain], SeasonLag(nTrain))
+	base, err := baselineForecast(d, y, nTrain)
+	if err != nil {
+		return
+	}
+	bm := Measure(y[nTrain:], base[nTrain:], y[:nTrain], SeasonLag(nTrain))
+	nv.add("accuracy/holdout_wmape/"+Global, m.WMAPE)
+	nv.add("accuracy/holdout_mase/"+Global, m.MASE)
+	nv.add("accuracy/holdout_bias/"+Global, math.Abs(m.ME)/meanAbs(y[nTrain:]))
+	nv.add("accuracy/skill/"+Global, 1-m.WMAPE/bm.WMAPE)
+	var w []float64
+	for i := range set.Folds {
+		origin := d.N - (set.Folds-i)*set.FoldWeeks
+		if origin < minTrain(d) || fixedIndependent(d, origin) != nil {
+			continue
+		}
+		pred := full
+		if origin != nTrain {
+			if pred = head(origin); pred == nil {
+				return
+			}
+		}
+		end := min(origin+set.FoldWeeks, d.N)
+		w = append(w, Measure(y[origin:end], pred[origin:end], y[:origin], SeasonLag(origin)).WMAPE)
+	}
+	if len(w) >= 2 {
+		nv.add("accuracy/backtest_median_wmape/"+Global, median(w))
+		nv.add("accuracy/backtest_worst_wmape/"+Global, slices.Max(w))
+	}
 }
 
 // minTrain is the fewest weeks a fit needs: as many as NewDesign asks of a

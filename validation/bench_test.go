@@ -2,6 +2,7 @@ package validation
 
 import (
 	"bytes"
+	"fmt"
 	"math/rand/v2"
 	"testing"
 
@@ -67,4 +68,33 @@ func BenchmarkValidate(b *testing.B) {
 			}
 		}
 	})
+}
+
+// BenchmarkRecoverNull is the cost of the false-alarm simulation: the
+// recovery check's panels alone (none) against the same panels also
+// yielding the accuracy and quarter-out metrics of each (null), at the
+// rehearsal's default 8 panels and propose's 20, on 2 workers.
+func BenchmarkRecoverNull(b *testing.B) {
+	prob := benchProblem(b)
+	fit, err := prob.Design.Fit(prob.Panel.KPI, model.FitSettings{Seed: 1, Workers: 2})
+	if err != nil {
+		b.Fatal(err)
+	}
+	for _, r := range []int{8, 20} {
+		set := Settings{Seed: 1, Workers: 2, Replicates: r}
+		b.Run(fmt.Sprintf("panels_%d/none", r), func(b *testing.B) {
+			for b.Loop() {
+				if _, err := recoverWith(prob.Design, fit, set, nil); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+		b.Run(fmt.Sprintf("panels_%d/null", r), func(b *testing.B) {
+			for b.Loop() {
+				if _, err := recoverWith(prob.Design, fit, set, &nullValues{}); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
 }

@@ -86,6 +86,11 @@ func DrawSpread(d *model.Design, fit *model.FitResult, draws Draws, breakEven fl
 // Checks grades the result, two checks per channel.
 func (r *DrawsResult) Checks(th Thresholds) []Check {
 	var out []Check
+	defer func() {
+		for i := range out {
+			out[i].Basis = BasisPrecision
+		}
+	}()
 	for k, name := range r.Channels {
 		side := "above"
 		if r.PointMROI[k] <= r.BreakEven {

@@ -37,6 +37,32 @@ type Check struct {
 	Metric    float64 `json:"metric"`
 	Threshold float64 `json:"threshold"`
 	Detail    string  `json:"detail"`
+	// PValue, for a check that tests the model, is the probability that
+	// its metric would be at least this bad if the fitted model were right
+	// (see rates.go); Null says how it was computed. Rate is the p-value
+	// below which the check fails: its false-alarm rate (Grade).
+	PValue *float64 `json:"p_value,omitempty"`
+	Null   string   `json:"null,omitempty"`
+	Rate   float64  `json:"false_alarm_rate,omitempty"`
+	// Basis is "precision" for a check that measures how precisely the
+	// data settle the model rather than testing it; the risk figures carry
+	// the same information through the draws, so the gate does not act on
+	// it again.
+	Basis string `json:"basis,omitempty"`
+	// RawThreshold is set when the check is graded by its raw threshold
+	// although it has a p-value: the user or the policy set that threshold.
+	RawThreshold bool `json:"raw_threshold,omitempty"`
+}
+
+// GradeRaw grades c by a raw limit on its metric, the limit's order saying
+// the direction (Warn > Fail: smaller is worse), and marks it RawThreshold.
+func (c *Check) GradeRaw(l Limit) {
+	if l.Warn > l.Fail {
+		c.Status = l.below(c.Metric)
+	} else {
+		c.Status = l.above(c.Metric)
+	}
+	c.Threshold, c.RawThreshold = l.Fail, true
 }
 
 // Evidence is the set of checks a validation run produced.

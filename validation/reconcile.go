@@ -405,9 +405,16 @@ func Reconcile(p *model.Panel, fc *Forecast) (*ReconcileResult, error) {
 }
 
 // Checks grades the result: coverage of the band and bias.
-func (r *ReconcileResult) Checks(th Thresholds) []Check {
+func (r *ReconcileResult) Checks(th Thresholds) (out []Check) {
 	name := filepath.Base(r.Source)
 	b := math.Abs(r.Bias)
+	covered := int(math.Round(r.Coverage * float64(r.Weeks)))
+	defer func() {
+		// A right model's 5%–95% band covers each week with probability 0.9;
+		// the weeks are taken as independent (the band already holds the
+		// parameter uncertainty and the noise).
+		out[0].PValue, out[0].Null = ptr(binomialAtMost(covered, r.Weeks, 0.9)), "binomial"
+	}()
 	return []Check{
 		check("reconciliation/coverage", Reconciliation, Global, th.Coverage.below(r.Coverage), r.Coverage, th.Coverage.Fail,
 			"%s: %d of %d weeks from %s inside the 5%%–95%% band (moved to the spend made, %+.0f%% against plan); warn below %.0f%%",

@@ -46,6 +46,14 @@ type RecoverResult struct {
 // channel's or from the baseline (spent together, or flat) comes back with
 // a different ROI every time: recovery fails for it.
 func Recover(d *model.Design, fit *model.FitResult, set Settings) (*RecoverResult, error) {
+	return recoverWith(d, fit, set, nil)
+}
+
+// recoverWith is Recover; with nv, each simulated panel also yields the
+// accuracy and quarter-out metrics the checks of the data are compared
+// with (nullAccuracy, blockChanges), so one set of simulated panels and
+// their refits serves recovery and those checks' false-alarm rates.
+func recoverWith(d *model.Design, fit *model.FitResult, set Settings, nv *nullValues) (*RecoverResult, error) {
 	set = set.withDefaults()
 	point := d.Summarize(fit.Params, set.ValuePerKPI)
 	K := len(point)
@@ -64,11 +72,21 @@ func Recover(d *model.Design, fit *model.FitResult, set Settings) (*RecoverResul
 		warm := fit.Params
 		f, err := d.Fit(y, model.FitSettings{Seed: set.Seed, Warm: &warm})
 		if err == nil {
+			sum := d.Summarize(f.Params, set.ValuePerKPI)
 			row := make([]float64, K)
-			for k, s := range d.Summarize(f.Params, set.ValuePerKPI) {
+			for k, s := range sum {
 				row[k] = s.ROI
 			}
 			r.Refit[i] = row
+			if nv != nil {
+				nullAccuracy(d, y, f.Params, set, nv)
+				q, _, failed := blockChanges(d, y, f.Params, row, roiFloor(d, sum, set.ValuePerKPI), set, 1, nil)
+				if failed == 0 {
+					for k, c := range d.Spec.Channels {
+						nv.add("stability/quarter_out/"+c.Name, q[k])
+					}
+				}
+			}
 		}
 		set.progress("recovery", done.inc(), set.Replicates)
 	})
@@ -217,22 +235,34 @@ func halves(n int) (first, second []bool) {
 	return first, second
 }
 
-// Checks grades the result, three checks per channel.
+// Checks grades the result, three checks per channel. They measure how
+// precisely the data settle each channel's ROI (Basis "precision"), not
+// whether the model is right; a channel whose effect is fitted to zero
+// fails them (nothing was recovered) and is acted on.
 func (r *RecoverResult) Checks(th Thresholds) []Check {
 	var out []Check
 	n := len(r.Refit) - r.Failed
 	for k, name := range r.Channels {
 		e, b, v := r.MedianAbsError[k], r.MedianError[k], r.SpendVIF[k]
-		out = append(out,
+		cs := []Check{
 			check("recovery/spend_collinearity", Recovery, name, th.SpendVIF.above(v), v, th.SpendVIF.Fail,
 				"variance inflation %.3g: %.0f%% of the variation of its spend follows the other channels' spend and the baseline; warn above %.3g",
 				v, 100*(1-1/v), th.SpendVIF.Warn),
-			check("recovery/roi_error", Recovery, name, th.RecoveryError.above(e), e, th.RecoveryError.Fail,
-				"refitted on %d panels simulated from the fit (ROI %.3g): median |error| %.0f%%, ROI SD %.3g; warn above %.0f%%",
-				n, r.ROI[k], 100*e, r.SD[k], 100*th.RecoveryError.Warn),
-			check("recovery/roi_bias", Recovery, name, th.RecoveryBias.above(math.Abs(b)), math.Abs(b), th.RecoveryBias.Fail,
-				"median signed error of the refits' ROI %+.0f%%; warn above %.0f%%", 100*b, 100*th.RecoveryBias.Warn),
-		)
+		}
+		if zeroEffect(r.ROI[k], r.Floor) {
+			cs = append(cs, zeroCheck("recovery/roi_error", Recovery, name, th.RecoveryError.Fail),
+				zeroCheck("recovery/roi_bias", Recovery, name, th.RecoveryBias.Fail))
+		} else {
+			cs = append(cs,
+				check("recovery/roi_error", Recovery, name, th.RecoveryError.above(e), e, th.RecoveryError.Fail,
+					"refitted on %d panels simulated from the fit (ROI %.3g): median |error| %.0f%%, ROI SD %.3g; warn above %.0f%%",
+					n, r.ROI[k], 100*e, r.SD[k], 100*th.RecoveryError.Warn),
+				check("recovery/roi_bias", Recovery, name, th.RecoveryBias.above(math.Abs(b)), math.Abs(b), th.RecoveryBias.Fail,
+					"median signed error of the refits' ROI %+.0f%%; warn above %.0f%%", 100*b, 100*th.RecoveryBias.Warn))
+			cs[1].Basis, cs[2].Basis = BasisPrecision, BasisPrecision
+		}
+		cs[0].Basis = BasisPrecision
+		out = append(out, cs...)
 	}
 	if r.Failed > 0 {
 		for i := range out {

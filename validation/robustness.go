@@ -22,8 +22,16 @@ type RobustResult struct {
 	QuarterOut         []float64 // per channel, the largest |relative change| over the blocks
 	QuarterWorst       []int     // per channel, the first week of that block
 
-	NarrowUpper, WideUpper []float64 // per channel, the upper decay bound of each refit
-	DecayNarrow, DecayWide []float64 // per channel, relative change
+	// Decay bounds: the fit again with every channel's upper decay bound
+	// widened (WideUpper); DecayWide is the relative change of ROI, and
+	// DecayOnBound whether the fitted decay sat on its upper bound.
+	// RecoverySD, filled by Run from the recovery check, is each channel's
+	// ROI SD on panels simulated from the fit: the noise a change of ROI is
+	// measured against.
+	WideUpper    []float64
+	DecayWide    []float64
+	DecayOnBound []bool
+	RecoverySD   []float64
 
 	Split      int       // first week of the second half
 	FirstHalf  []float64 // per channel, ROI (over all weeks) of the first half's fit
@@ -118,14 +126,59 @@ func (r *RobustResult) driftNull(d *model.Design, y []float64, fit *model.FitRes
 	}
 }
 
-// Narrowed and widened decay bounds of the robustness refits: only the
-// upper bound moves, where slow carryover and the baseline trade off; the
-// narrow box keeps the lower two thirds of the range, the wide one extends
-// it by a third, to at most WideDecayMax.
-const (
-	NarrowDecayShare = 2.0 / 3
-	WideDecayMax     = 0.95
-)
+// WideDecayMax is the widened upper decay bound of the decay-bounds check:
+// the default box's upper bound extended by a third of its width, at most
+// this. Only the upper bound moves, where slow carryover and the baseline
+// trade off. The box is only widened, never narrowed: narrowing it would
+// flag every channel whose true decay lies above the narrowed bound.
+const WideDecayMax = 0.95
+
+// blockChanges refits y once per block of BlockWeeks weeks with that block
+// left out of the objective (the transforms still see its spend), warm from
+// p, and returns per channel the largest |relative change| of ROI against
+// roi (scaled by max(|ROI|, floor)) with the first week of its block, and
+// the number of refits that failed. The data and the simulated panels of
+// the quarter-out null go through this one function.
+func blockChanges(d *model.Design, y []float64, p model.Params, roi []float64, floor float64, set Settings, workers int, tick func()) (maxRel []float64, worst []int, failed int) {
+	K := len(roi)
+	blocks := max(1, d.N/set.BlockWeeks)
+	blockROI := make([][]float64, blocks)
+	parallel(blocks, workers, func(b int) {
+		from, to := b*set.BlockWeeks, (b+1)*set.BlockWeeks
+		if b == blocks-1 {
+			to = d.N
+		}
+		keep := make([]bool, d.N)
+		for t := range keep {
+			keep[t] = t < from || t >= to
+		}
+		warm := p
+		f, err := d.Rows(keep).Fit(y, model.FitSettings{Seed: set.Seed, Warm: &warm})
+		if err == nil {
+			out := make([]float64, K)
+			for k, s := range d.Summarize(f.Params, set.ValuePerKPI) {
+				out[k] = s.ROI
+			}
+			blockROI[b] = out
+		}
+		if tick != nil {
+			tick()
+		}
+	})
+	maxRel, worst = make([]float64, K), make([]int, K)
+	for b, br := range blockROI {
+		if br == nil {
+			failed++
+			continue
+		}
+		for k := range K {
+			if c := math.Abs((br[k] - roi[k]) / max(math.Abs(roi[k]), floor)); c > maxRel[k] {
+				maxRel[k], worst[k] = c, b*set.BlockWeeks
+			}
+		}
+	}
+	return maxRel, worst, failed
+}
 
 // Robustness refits the model (a) once per block of BlockWeeks weeks with
 // that block left out of the objective (the transforms still see its spend),
@@ -154,52 +207,22 @@ func Robustness(d *model.Design, y []float64, fit *model.FitResult, set Settings
 	}
 
 	// (a) Leave one block out; the last block takes the remainder.
-	r.Blocks = max(1, d.N/set.BlockWeeks)
-	blockROI := make([][]float64, r.Blocks)
 	var done counter
-	parallel(r.Blocks, set.Workers, func(b int) {
-		from, to := b*set.BlockWeeks, (b+1)*set.BlockWeeks
-		if b == r.Blocks-1 {
-			to = d.N
-		}
-		keep := make([]bool, d.N)
-		for t := range keep {
-			keep[t] = t < from || t >= to
-		}
-		warm := fit.Params
-		f, err := d.Rows(keep).Fit(y, model.FitSettings{Seed: set.Seed, Warm: &warm})
-		if err == nil {
-			blockROI[b] = roiOf(f.Params)
-		}
-		set.progress("stability", done.inc(), r.Blocks+4)
-	})
-	r.QuarterOut = make([]float64, K)
-	r.QuarterWorst = make([]int, K)
-	for b, roi := range blockROI {
-		if roi == nil {
-			r.BlockFailed++
-			continue
-		}
-		for k := range K {
-			if c := math.Abs(rel(roi, k)); c > r.QuarterOut[k] {
-				r.QuarterOut[k], r.QuarterWorst[k] = c, b*set.BlockWeeks
-			}
-		}
-	}
+	r.Blocks = max(1, d.N/set.BlockWeeks)
+	r.QuarterOut, r.QuarterWorst, r.BlockFailed = blockChanges(d, y, fit.Params, r.ROI, r.Floor, set, set.Workers,
+		func() { set.progress("stability", done.inc(), r.Blocks+3) })
 	if r.BlockFailed == r.Blocks {
 		return nil, fmt.Errorf("stability: none of the %d leave-one-block-out refits produced a fit", r.Blocks)
 	}
 
-	// (b) and (c): four refits, run in parallel.
-	narrow, wide := *d, *d
-	narrow.Spec.Channels = slices.Clone(d.Spec.Channels)
+	// (b) and (c): three refits, run in parallel.
+	wide := *d
 	wide.Spec.Channels = slices.Clone(d.Spec.Channels)
 	for k, c := range d.Spec.Channels {
 		w := c.Decay[1] - c.Decay[0]
-		narrow.Spec.Channels[k].Decay[1] = c.Decay[0] + NarrowDecayShare*w
 		wide.Spec.Channels[k].Decay[1] = max(c.Decay[1], min(WideDecayMax, c.Decay[1]+w/3))
-		r.NarrowUpper = append(r.NarrowUpper, narrow.Spec.Channels[k].Decay[1])
 		r.WideUpper = append(r.WideUpper, wide.Spec.Channels[k].Decay[1])
+		r.DecayOnBound = append(r.DecayOnBound, fit.Params.Channels[k].Decay >= c.Decay[1]-1e-3*max(w, 1e-9))
 	}
 	r.Split = d.N / 2
 	first, second := halves(d.N)
@@ -207,12 +230,11 @@ func Robustness(d *model.Design, y []float64, fit *model.FitResult, set Settings
 	pinned := pinShapes(d, fit.Params)
 	warm := model.FitSettings{Seed: set.Seed, Warm: &fit.Params}
 	fits := []func() (*model.FitResult, error){
-		func() (*model.FitResult, error) { return narrow.Fit(y, multi) },
 		func() (*model.FitResult, error) { return wide.Fit(y, multi) },
 		func() (*model.FitResult, error) { return pinned.Rows(first).Fit(y, warm) },
 		func() (*model.FitResult, error) { return pinned.Rows(second).Fit(y, warm) },
 	}
-	names := []string{"narrowed decay bounds", "widened decay bounds", "first half", "second half"}
+	names := []string{"widened decay bounds", "first half", "second half"}
 	res := make([][]float64, len(fits))
 	errs := make([]error, len(fits))
 	var halfFits [2]*model.FitResult
@@ -220,31 +242,28 @@ func Robustness(d *model.Design, y []float64, fit *model.FitResult, set Settings
 		f, err := fits[i]()
 		if err == nil {
 			res[i] = roiOf(f.Params)
-			if i >= 2 {
-				halfFits[i-2] = f
+			if i >= 1 {
+				halfFits[i-1] = f
 			}
 		}
 		errs[i] = err
-		set.progress("stability", done.inc(), r.Blocks+4)
+		set.progress("stability", done.inc(), r.Blocks+3)
 	})
-	for i, err := range errs[:2] {
-		if err != nil {
-			return nil, fmt.Errorf("stability refit with %s: %w", names[i], err)
-		}
+	if errs[0] != nil {
+		return nil, fmt.Errorf("stability refit with %s: %w", names[0], errs[0])
 	}
 	for k := range K {
-		r.DecayNarrow = append(r.DecayNarrow, rel(res[0], k))
-		r.DecayWide = append(r.DecayWide, rel(res[1], k))
+		r.DecayWide = append(r.DecayWide, rel(res[0], k))
 	}
 	// A half the model cannot be fitted on (a control constant there) leaves
 	// drift unjudged rather than failing the run.
-	for i, err := range errs[2:] {
+	for i, err := range errs[1:] {
 		if err != nil {
-			r.DriftErr = fmt.Errorf("%s: %w", names[2+i], err)
+			r.DriftErr = fmt.Errorf("%s: %w", names[1+i], err)
 			return r, nil
 		}
 	}
-	r.FirstHalf, r.SecondHalf = res[2], res[3]
+	r.FirstHalf, r.SecondHalf = res[1], res[2]
 	r.halfFits = [2]*model.FitResult{halfFits[0], halfFits[1]}
 	r.driftNull(d, y, fit, set)
 	for k := range K {
@@ -261,22 +280,54 @@ func Robustness(d *model.Design, y []float64, fit *model.FitResult, set Settings
 	return r, nil
 }
 
-// Checks grades the result, three or four checks per channel.
+// zeroEffect says whether a channel's ROI is fitted to zero, when checks
+// that compare ROIs would compare 0 with 0 and prove nothing.
+func zeroEffect(roi, floor float64) bool { return math.Abs(roi) <= 1e-9*floor }
+
+// zeroCheck is a check that cannot be judged because the channel's effect
+// is fitted to zero: it fails, so it never passes by comparing 0 with 0.
+func zeroCheck(name string, f Family, scope string, threshold float64) Check {
+	return Check{Name: name, Family: f, Scope: scope, Status: Fail, Threshold: threshold,
+		Detail: "not judged: the channel's effect is fitted to zero, and a zero compared with zero proves nothing; hint: check its spend varies and is not spent together with another channel"}
+}
+
+// Checks grades the result, three checks per channel. quarter_out gets
+// its p-value in Run (from the simulated panels); decay_bounds and drift
+// carry theirs here.
 func (r *RobustResult) Checks(th Thresholds) []Check {
 	var out []Check
 	for k, name := range r.Channels {
+		if zeroEffect(r.ROI[k], r.Floor) {
+			out = append(out, zeroCheck("stability/quarter_out", Stability, name, th.QuarterOut.Fail),
+				zeroCheck("stability/decay_bounds", Stability, name, th.DecayBounds.Fail),
+				zeroCheck("stability/drift", Stability, name, th.DriftZ.Fail))
+			continue
+		}
 		q := r.QuarterOut[k]
-		detail := fmt.Sprintf("ROI %.3g; refitted %d times, each without one block of %d weeks: largest change %.0f%% (without weeks %d–%d); warn above %.0f%%",
-			r.ROI[k], r.Blocks-r.BlockFailed, r.BlockWeeks, 100*q, r.QuarterWorst[k]+1, r.QuarterWorst[k]+r.BlockWeeks, 100*th.QuarterOut.Warn)
+		detail := fmt.Sprintf("ROI %.3g; refitted %d times, each without one block of %d weeks: largest change %.0f%% (without weeks %d–%d)",
+			r.ROI[k], r.Blocks-r.BlockFailed, r.BlockWeeks, 100*q, r.QuarterWorst[k]+1, r.QuarterWorst[k]+r.BlockWeeks)
 		if r.BlockFailed > 0 {
 			detail += fmt.Sprintf(" (%d refits failed)", r.BlockFailed)
 		}
 		out = append(out, Check{Name: "stability/quarter_out", Family: Stability, Scope: name,
 			Status: th.QuarterOut.above(q), Metric: finite(q), Threshold: th.QuarterOut.Fail, Detail: detail})
-		b := max(math.Abs(r.DecayNarrow[k]), math.Abs(r.DecayWide[k]))
-		out = append(out, check("stability/decay_bounds", Stability, name, th.DecayBounds.above(b), b, th.DecayBounds.Fail,
-			"ROI changes %+.0f%% with the upper decay bound at %.2g, %+.0f%% at %.2g; warn above %.0f%%",
-			100*r.DecayNarrow[k], r.NarrowUpper[k], 100*r.DecayWide[k], r.WideUpper[k], 100*th.DecayBounds.Warn))
+
+		// Decay bounds: the ROI change when the box is widened, against the
+		// ROI's noise on panels simulated from the fit (the recovery SD).
+		b := math.Abs(r.DecayWide[k])
+		bound := "inside its bounds"
+		if r.DecayOnBound[k] {
+			bound = "on its upper bound"
+		}
+		dc := check("stability/decay_bounds", Stability, name, th.DecayBounds.above(b), b, th.DecayBounds.Fail,
+			"fitted decay %s; ROI changes %+.0f%% with the upper decay bound widened to %.2g",
+			bound, 100*r.DecayWide[k], r.WideUpper[k])
+		if k < len(r.RecoverySD) && r.RecoverySD[k] > 0 {
+			z := b * max(math.Abs(r.ROI[k]), r.Floor) / r.RecoverySD[k]
+			dc.PValue, dc.Null = ptr(twoSidedNormal(z)), "normal"
+			dc.Detail += fmt.Sprintf(": %.2g times the ROI's SD %.3g on panels simulated from the fit", z, r.RecoverySD[k])
+		}
+		out = append(out, dc)
 		if r.DriftErr != nil {
 			out = append(out, Check{Name: "stability/drift", Family: Stability, Scope: name, Status: Warn,
 				Threshold: th.DriftZ.Fail, Detail: "not judged: the model cannot be fitted on " + r.DriftErr.Error()})
@@ -284,9 +335,14 @@ func (r *RobustResult) Checks(th Thresholds) []Check {
 		}
 		z := r.Drift[k]
 		if r.DriftScaled {
-			out = append(out, check("stability/drift", Stability, name, th.DriftZ.above(z), z, th.DriftZ.Fail,
-				"ROI %.3g fitted on weeks 1–%d, %.3g on weeks %d–end: %.1f times the SD %.3g of that difference on %d panels simulated without drift; warn above %.2g",
-				r.FirstHalf[k], r.Split, r.SecondHalf[k], r.Split+1, z, r.DriftSD[k], r.DriftReplicates, th.DriftZ.Warn))
+			// The difference over its SD from R simulated panels, as a
+			// prediction: t = d / (SD √(1 + 1/R)) has R − 1 degrees of freedom.
+			rr := float64(r.DriftReplicates)
+			c := check("stability/drift", Stability, name, th.DriftZ.above(z), z, th.DriftZ.Fail,
+				"ROI %.3g fitted on weeks 1–%d, %.3g on weeks %d–end: %.1f times the SD %.3g of that difference on %d panels simulated without drift",
+				r.FirstHalf[k], r.Split, r.SecondHalf[k], r.Split+1, z, r.DriftSD[k], r.DriftReplicates)
+			c.PValue, c.Null = ptr(twoSidedT(z/math.Sqrt(1+1/rr), rr-1)), "student t"
+			out = append(out, c)
 		} else {
 			out = append(out, check("stability/drift", Stability, name, th.DriftRelative.above(z), z, th.DriftRelative.Fail,
 				"ROI %.3g fitted on weeks 1–%d, %.3g on weeks %d–end: %.0f%% apart (too few simulated panels to measure the noise); warn above %.0f%%",

@@ -23,6 +23,10 @@ type Settings struct {
 
 	ValuePerKPI float64 // currency per KPI unit; 0 means 1
 
+	// Rates are the families' false-alarm rates that grade every check
+	// with a p-value (Grade); nil means DefaultRates.
+	Rates RateFor
+
 	// Progress, if not nil, is told after each unit of work of a stage
 	// ("backtest", "recovery", "stability", ...). It may be called from
 	// several goroutines at once.
@@ -41,6 +45,9 @@ func (s Settings) withDefaults() Settings {
 	def(&s.FoldWeeks, 13)
 	def(&s.Replicates, 20)
 	def(&s.BlockWeeks, 13)
+	if s.Rates == nil {
+		s.Rates = DefaultRates
+	}
 	if s.ValuePerKPI == 0 {
 		s.ValuePerKPI = 1
 	}

@@ -39,10 +39,15 @@ func (l Limit) below(v float64) Status {
 	return Pass
 }
 
-// Thresholds are the limits every check is graded against. A policy file
-// will supply them later; until then they come from DefaultThresholds and
-// command-line overrides. Unless a field says otherwise larger is worse.
-// Relative errors and changes are fractions (0.2 = 20%).
+// Thresholds are the raw limits on each check's metric. A check that tests
+// the model (holdout and backtest errors, quarter-out, decay bounds, drift,
+// lift agreement, forecast coverage) is graded by its p-value against its
+// family's false-alarm rate instead (rates.go, Grade), unless its raw limit
+// is Set here (a command-line override) or by the policy (raw_limit): then
+// the raw limit grades it and the check says so (RawThreshold). The other
+// checks (skill, the precision measures, reconciliation bias) are always
+// graded by their raw limits. Unless a field says otherwise larger is
+// worse. Relative errors and changes are fractions (0.2 = 20%).
 //
 // The defaults are rules of thumb — common practice, no source — except
 // where a field names its reasoning.
@@ -79,16 +84,25 @@ type Thresholds struct {
 	RecoveryBias Limit `json:"recovery_bias" yaml:"recovery_bias"`
 
 	// QuarterOut: the largest relative change of a channel's ROI when one
-	// block of weeks is left out of the fit. Default {0.25, 0.50}.
+	// block of weeks is left out of the fit. Default {0.25, 0.50}. Its
+	// p-value compares it with the same largest change on the panels
+	// simulated from the fit, which have as many blocks: a longer history
+	// has more blocks and a larger largest change, on the data and on the
+	// simulated panels alike, so the test does not grow stricter with
+	// history as the raw limit does.
 	QuarterOut Limit `json:"quarter_out" yaml:"quarter_out"`
-	// DecayBounds: the largest relative change of ROI when the decay bounds
-	// are widened or narrowed. Default {0.15, 0.30}.
+	// DecayBounds: the relative change of ROI when the upper decay bound is
+	// widened (never narrowed: a narrowed box flags every true decay above
+	// it). Default {0.15, 0.30}. Its p-value takes the change over the ROI's
+	// SD on the recovery panels as a standard normal z: a change within the
+	// sampling noise is no evidence that the bound matters.
 	DecayBounds Limit `json:"decay_bounds" yaml:"decay_bounds"`
 	// DriftZ: |ROI first half − ROI second half| over the SD of that
 	// difference on panels simulated from the fit (so without drift).
 	// Default {2.5, 3.5}: with the SD estimated from 20 panels, the
 	// two-sided tail of Student's t with 19 degrees of freedom beyond them
-	// is 2.2% and 0.24% (scipy.stats.t).
+	// is 2.2% and 0.24% (scipy.stats.t). Its p-value is that tail for the
+	// prediction statistic z/√(1 + 1/R), R panels, R − 1 degrees of freedom.
 	DriftZ Limit `json:"drift_z" yaml:"drift_z"`
 	// DriftRelative: the relative ROI difference of the halves, used when
 	// no spread is known. Default {0.30, 0.50}.
@@ -114,6 +128,37 @@ type Thresholds struct {
 	// ReconcileBias: |mean(actual − re-forecast)| / mean actual.
 	// Default {0.05, 0.10}.
 	ReconcileBias Limit `json:"reconcile_bias" yaml:"reconcile_bias"`
+
+	set map[string]bool // keys given to Set: those checks keep their raw grading
+}
+
+// rawKeys maps a tested check's name to the threshold key that, when Set,
+// makes it graded by its raw threshold instead of its false-alarm rate.
+var rawKeys = map[string]string{
+	"accuracy/holdout_wmape":         "holdout_wmape",
+	"accuracy/holdout_mase":          "holdout_mase",
+	"accuracy/holdout_bias":          "holdout_bias",
+	"accuracy/backtest_median_wmape": "backtest_median_wmape",
+	"accuracy/backtest_worst_wmape":  "backtest_worst_wmape",
+	"stability/quarter_out":          "quarter_out",
+	"stability/decay_bounds":         "decay_bounds",
+	"stability/drift":                "drift_z",
+	"lift/agreement":                 "lift_z",
+	"reconciliation/coverage":        "coverage",
+}
+
+// IsTest reports whether the check called name tests the model (carries a
+// p-value when it can be judged) rather than measuring precision or
+// usefulness against a raw limit.
+func IsTest(name string) bool { _, ok := rawKeys[name]; return ok }
+
+// keepRaw marks the checks whose raw threshold was Set.
+func (th Thresholds) keepRaw(checks []Check) {
+	for i := range checks {
+		if key, ok := rawKeys[checks[i].Name]; ok && th.set[key] {
+			checks[i].RawThreshold = true
+		}
+	}
 }
 
 // DefaultThresholds returns the default limits documented on Thresholds.
@@ -146,7 +191,9 @@ func LimitNames() []string {
 	var out []string
 	t := reflect.TypeOf(Thresholds{})
 	for i := range t.NumField() {
-		out = append(out, strings.Split(t.Field(i).Tag.Get("json"), ",")[0])
+		if t.Field(i).IsExported() {
+			out = append(out, strings.Split(t.Field(i).Tag.Get("json"), ",")[0])
+		}
 	}
 	sort.Strings(out)
 	return out
@@ -158,7 +205,7 @@ func (th *Thresholds) Set(key string, values ...float64) error {
 	v := reflect.ValueOf(th).Elem()
 	t := v.Type()
 	for i := range t.NumField() {
-		if strings.Split(t.Field(i).Tag.Get("json"), ",")[0] != key {
+		if !t.Field(i).IsExported() || strings.Split(t.Field(i).Tag.Get("json"), ",")[0] != key {
 			continue
 		}
 		for _, x := range values {
@@ -167,6 +214,10 @@ func (th *Thresholds) Set(key string, values ...float64) error {
 			}
 		}
 		f := v.Field(i)
+		if th.set == nil {
+			th.set = map[string]bool{}
+		}
+		th.set[key] = true
 		switch f.Interface().(type) {
 		case Limit:
 			if len(values) != 2 {

@@ -12,21 +12,19 @@ import (
 	"slices"
 	"strings"
 	"text/tabwriter"
-	"time"
 
 	"github.com/urfave/cli/v2"
 
+	"sluice/decision"
 	"sluice/gate"
 	"sluice/internal/atomicfile"
 	"sluice/internal/boundedio"
-	"sluice/internal/sample"
 	"sluice/internal/strictyaml"
 	"sluice/model"
 	"sluice/optimize"
 	"sluice/policies"
 	"sluice/record"
 	"sluice/report"
-	"sluice/uncertainty"
 	"sluice/validation"
 )
 
@@ -216,8 +214,8 @@ func decisionArgsFrom(c *cli.Context, o *opts) decisionArgs {
 		Waivers: o.String("waivers"), BootstrapDraws: o.Int("bootstrap-draws"), Quiet: o.Bool("quiet")}
 }
 
-// decide runs the whole decision: draws, evidence, allocation, gate,
-// forecast, record.
+// decide reads the decision's files and runs the one decision pipeline
+// (package decision) on them.
 func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error) {
 	planPath := a.Plan
 	if planPath == "" {
@@ -265,18 +263,16 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	if err != nil {
 		return nil, err
 	}
-	if drawsPath != "" {
-		if err := addInput("draws", drawsPath); err != nil {
-			return nil, err
-		}
+	if err := addInput("draws", drawsPath); err != nil {
+		return nil, err
 	}
-	draws, point := d.Params(), fullFitParams(d)
-
-	// Evidence.
-	prob := validation.Problem{Panel: in.Panel, Design: in.Design,
-		Draws: &validation.Draws{Params: draws, Failed: d.Failed()}}
+	di := decision.Input{Panel: in.Panel, Design: in.Design, Plan: plan, Policy: pol, Draws: d,
+		MadeWith: map[string]string{"data_sha256": in.DataSHA256}}
+	if in.SpecSHA256 != "" {
+		di.MadeWith["spec_sha256"] = in.SpecSHA256
+	}
 	if path := a.Lifts; path != "" {
-		if prob.Lifts, err = validation.LoadLifts(path, in.Panel); err != nil {
+		if di.Lifts, err = validation.LoadLifts(path, in.Panel); err != nil {
 			return nil, err
 		}
 		if err := addInput("lifts", path); err != nil {
@@ -284,130 +280,58 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 		}
 	}
 	if dir := a.Records; dir != "" {
-		if prob.Forecasts, err = validation.LoadForecasts(dir); err != nil {
+		if di.Forecasts, err = validation.LoadForecasts(dir); err != nil {
 			return nil, err
 		}
 	}
-	th := validation.DefaultThresholds()
-	th.BreakEven = plan.BreakEvenMROI() // the plan's economics break even here (KPI value per currency)
-	val, err := validation.Run(prob, th,
-		validation.Settings{Seed: in.Seed, Workers: in.Workers, ValuePerKPI: plan.ValuePerKPI})
-	if err != nil {
-		return nil, err
-	}
-
-	// Proposal: the allocator's, or a person's.
-	h := plan.HorizonWeeks
-	current := in.Design.CurrentSpend()
-	curves := in.Design.NewCurves(draws, h)
-	econ := optimize.Economics{Horizon: h, Margin: plan.Margin, ValuePerKPI: plan.ValuePerKPI}
-	var proposed []float64
-	var proposal record.Proposal
 	if path := a.Proposal; path != "" {
-		var pf proposalFile
-		if err := strictyaml.ReadFile(path, &pf); err != nil {
+		if di.Proposal, err = readProposal(path, in); err != nil {
 			return nil, err
 		}
-		proposed = slices.Clone(current)
-		for name, w := range pf.Channels {
-			k := slices.Index(in.Spec.ChannelNames(), name)
-			if k < 0 {
-				return nil, fmt.Errorf("%s: channels.%s: not a channel of the model (%s)", path, name, strings.Join(in.Spec.ChannelNames(), ", "))
-			}
-			if !(w >= 0) || math.IsInf(w, 0) {
-				return nil, fmt.Errorf("%s: channels.%s: weekly spend %v must be a non-negative number", path, name, w)
-			}
-			proposed[k] = w
-		}
+		di.ProposalSource = path
 		if err := addInput("proposal", path); err != nil {
 			return nil, err
 		}
-		var g float64
-		for _, v := range econ.Gains(nil, curves, proposed, current) {
-			g += v
-		}
-		proposal = record.Proposal{Source: path, Objective: "written by a person", ExpectedGain: g / float64(len(draws))}
-	} else {
-		res, err := allocate(in, plan, draws, point)
-		if err != nil {
-			return nil, err
-		}
-		proposed = res.Proposed
-		proposal = record.Proposal{Source: "allocator", Objective: res.Objective.String(), ExpectedGain: res.ExpectedGain,
-			Optimality: res.KKT.Detail}
 	}
-
-	// The gate.
-	waivers, err := signedWaivers(a.Waivers, pol)
-	if err != nil {
+	if di.Waivers, err = signedWaivers(a.Waivers, pol); err != nil {
 		return nil, err
 	}
 	if err := addInput("waivers", a.Waivers); err != nil {
 		return nil, err
 	}
-	low, high := in.Design.Support()
-	support := make([]gate.SupportRange, len(low))
-	for k := range low {
-		support[k] = gate.SupportRange{Low: low[k], High: high[k]}
-	}
-	review := gate.Review{Channels: in.Spec.ChannelNames(), Current: current, Proposed: proposed,
-		Response: curves, Economics: econ, Support: support, Evidence: val.Evidence, Waivers: waivers, Policy: pol}
-	gd, err := gate.Run(review, gate.Settings{Workers: in.Workers})
+	out, err := decision.Make(c.Context, di, decision.Settings{Seed: in.Seed, Workers: in.Workers})
 	if err != nil {
 		return nil, err
 	}
-	gains := econ.Gains(nil, curves, gd.ApprovedPlan, current)
-
-	// The record.
-	rec := &record.Decision{Format: record.DecisionFormat, Tool: "sluice", Version: version, Seed: in.Seed,
-		KPI: in.Panel.KPIName, AsOf: in.Panel.Weeks[in.Panel.NumWeeks()-1].Format(time.DateOnly),
-		Channels: in.Spec.ChannelNames(), Horizon: h, Support: support, Inputs: inputs, PolicySHA256: record.SHA256Hex(pol.Raw),
-		Draws:    record.DrawsInfo{Count: len(d.Replicates), Failed: d.Failed(), Method: string(d.Header.Method), BlockLength: d.Header.BlockLength},
-		Proposal: proposal, Decision: *gd, Caution: record.Caution}
-	sum := val.Evidence.Summary()
-	rec.Evidence = map[string]int{"pass": sum[validation.Pass], "warn": sum[validation.Warn], "fail": sum[validation.Fail]}
-	sigma := model.FitStats(in.Panel.KPI, val.Fit.Residuals, in.Spec.NumParams()).Sigma
-	fc, total := forecastBand(in, val.Fit.Params, draws, gd.ApprovedPlan, h, sigma)
-	rec.Forecast, rec.ForecastTotal = *fc, total
+	rec := out.Record
+	rec.Version, rec.Inputs = version, inputs
 	b, err := record.MarshalDecision(rec)
 	if err != nil {
 		return nil, err
 	}
-	return &decisionRun{rec: rec, bytes: b, in: in, draws: draws, point: point, curves: curves, econ: econ,
-		gains: gains, backtest: val.Backtest, policy: pol}, nil
+	return &decisionRun{rec: rec, bytes: b, in: in, draws: out.Judged, point: out.Point, curves: out.Curves, econ: out.Economics,
+		gains: out.Gains, backtest: out.Validation.Backtest, policy: pol}, nil
 }
 
-// forecastBand forecasts the KPI of each week of the horizon under the
-// approved plan: each draw's forecast plus noise with the fit's residual
-// SD (one seeded stream per draw), summarized by type-8 quantiles.
-func forecastBand(in *modelInput, point model.Params, draws []model.Params, plan []float64, h int, sigma float64) (*validation.Forecast, [3]float64) {
-	weeks := make([][]float64, h)
-	totals := make([]float64, len(draws))
-	for i, p := range draws {
-		f := in.Design.Forecast(p, plan, nil, h)
-		rng := uncertainty.Stream(in.Seed^0xf0cac57, i)
-		for t, v := range f {
-			v += sigma * rng.NormFloat64()
-			weeks[t] = append(weeks[t], v)
-			totals[i] += v
+// readProposal reads a plan a person wrote: the current spend of every
+// channel it does not name.
+func readProposal(path string, in *modelInput) ([]float64, error) {
+	var pf proposalFile
+	if err := strictyaml.ReadFile(path, &pf); err != nil {
+		return nil, err
+	}
+	proposed := slices.Clone(in.Design.CurrentSpend())
+	for name, w := range pf.Channels {
+		k := slices.Index(in.Spec.ChannelNames(), name)
+		if k < 0 {
+			return nil, fmt.Errorf("%s: channels.%s: not a channel of the model (%s)", path, name, strings.Join(in.Spec.ChannelNames(), ", "))
 		}
+		if !(w >= 0) || math.IsInf(w, 0) {
+			return nil, fmt.Errorf("%s: channels.%s: weekly spend %v must be a non-negative number", path, name, w)
+		}
+		proposed[k] = w
 	}
-	var band validation.Band
-	for _, w := range weeks {
-		q := sample.Quantiles(w, 0.05, 0.5, 0.95)
-		band.P05, band.P50, band.P95 = append(band.P05, q[0]), append(band.P50, q[1]), append(band.P95, q[2])
-	}
-	t := sample.Quantiles(totals, 0.05, 0.5, 0.95)
-	planMap := map[string]float64{}
-	for k, name := range in.Spec.ChannelNames() {
-		planMap[name] = plan[k]
-	}
-	made := map[string]string{"data_sha256": in.DataSHA256}
-	if in.SpecSHA256 != "" {
-		made["spec_sha256"] = in.SpecSHA256
-	}
-	fc := validation.NewForecast(in.Design, in.Panel.Weeks[0], point, planMap, band, made)
-	return fc, [3]float64{t[0], t[1], t[2]}
+	return proposed, nil
 }
 
 // signedWaivers reads the waivers of an earlier record's sign-offs: only
@@ -443,7 +367,9 @@ func signedWaivers(path string, pol *policies.Policy) ([]gate.Waiver, error) {
 // printDecision prints the decision table: per channel current → proposed
 // → approved, the safe step and the reason; then the verdict and who signs.
 func printDecision(w io.Writer, r *record.Decision) {
-	fmt.Fprintf(w, "decision on next %d weeks (policy %s, %d draws, seed %d); weekly spend\n\n", r.Horizon, r.Policy, r.Draws.Count-r.Draws.Failed, r.Seed)
+	fmt.Fprintf(w, "decision on next %d weeks (policy %s, seed %d); weekly spend\n", r.Horizon, r.Policy, r.Seed)
+	fmt.Fprintf(w, "the allocator optimised over %d draws and the gate judged %d others (%d of %d replicates failed)\n\n",
+		r.Decision.Draws.Allocated, r.Decision.Draws.Judged, r.Draws.Failed, r.Draws.Count)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "channel\tcurrent\tproposed\tapproved\tsafe step\treason")
 	for _, m := range r.Moves {

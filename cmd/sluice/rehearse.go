@@ -115,13 +115,16 @@ func rehearseCommand() *cli.Command {
 					}
 				}
 			}
-			r, err := rehearsal.Run(ctx, rehearsal.Problem{Panel: in.Panel, Design: in.Design, Plan: plan, Policies: pols}, set)
+			// With --lifts (a model flag), each world gets the same tests
+			// (windows, standard errors) with results simulated from its truth.
+			prob := rehearsal.Problem{Panel: in.Panel, Design: in.Design, Plan: plan, Policies: pols, Lifts: in.Lifts}
+			r, err := rehearsal.Run(ctx, prob, set)
 			if err != nil {
 				return err
 			}
 			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), WorldsTotal: set.Worlds,
 				Shard: shard.String(), Misspecified: set.Misspecified, Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw,
-				FailedShare: r.FailedShare, Errors: r.Errors}
+				FailedShare: r.FailedShare, Errors: r.Errors, Decided: r.Decided, Failures: r.Failures, Checks: r.Checks}
 			return emitRehearsal(c, o, out, r, time.Since(start))
 		},
 	}
@@ -130,6 +133,12 @@ func rehearseCommand() *cli.Command {
 // emitRehearsal writes DIR/rehearsal.json and DIR/rehearsal.html (with
 // --out) and prints the table or, with --json, the summary.
 func emitRehearsal(c *cli.Context, o *opts, out rehearseOutput, r *rehearsal.Result, took time.Duration) error {
+	out = out.withWarning(r)
+	if r.Decided == 0 {
+		printFailures(c.App.ErrWriter, out)
+		return withHint(fmt.Errorf("no world was decided: all %d failed; nothing was written", r.Errors),
+			"the reasons by stage are above; a world fails where propose on the same data would, so try sluice propose on it")
+	}
 	var wrote []string
 	if dir := o.String("dir"); dir != "" {
 		if err := os.MkdirAll(dir, 0o755); err != nil {
@@ -219,6 +228,7 @@ func rehearseMergeCommand() *cli.Command {
 			out := first.rehearseOutput
 			out.Worlds, out.Shard = len(r.Worlds), "1/1"
 			out.Policies, out.Raw, out.FailedShare, out.Errors = r.Policies, r.Raw, r.FailedShare, r.Errors
+			out.Decided, out.Failures, out.Checks = r.Decided, r.Failures, r.Checks
 			return emitRehearsal(c, o, out, r, 0)
 		},
 	}
@@ -231,7 +241,7 @@ func sameRehearsal(a, b rehearseOutput) string {
 		return fmt.Sprintf("seed %d, not %d", b.Seed, a.Seed)
 	case a.WorldsTotal != b.WorldsTotal:
 		return fmt.Sprintf("%d worlds in all, not %d", b.WorldsTotal, a.WorldsTotal)
-	case a.Sizes != b.Sizes || a.Misspecified != b.Misspecified || fmt.Sprint(a.Kinds) != fmt.Sprint(b.Kinds):
+	case fmt.Sprint(a.Sizes) != fmt.Sprint(b.Sizes) || a.Misspecified != b.Misspecified || fmt.Sprint(a.Kinds) != fmt.Sprint(b.Kinds):
 		return "other sizes, misspecified share or kinds"
 	case len(a.Policies) != len(b.Policies):
 		return "other policies"
@@ -259,6 +269,20 @@ type rehearseOutput struct {
 	Raw          rehearsal.Summary          `json:"raw"`
 	FailedShare  map[rehearsal.Kind]float64 `json:"failed_check_share"`
 	Errors       int                        `json:"worlds_failed"`
+	Decided      int                        `json:"worlds_decided"`
+	Failures     []rehearsal.Failure        `json:"failures"`
+	Checks       []rehearsal.CheckRate      `json:"checks"`
+	// Warning is set when more than a tenth of the worlds failed.
+	Warning string `json:"warning,omitempty"`
+}
+
+// withWarning sets out.Warning from r.
+func (out rehearseOutput) withWarning(r *rehearsal.Result) rehearseOutput {
+	if r.Loud() {
+		out.Warning = fmt.Sprintf("%d of %d worlds could not be decided (more than %.0f%%); the figures cover only the %d that could",
+			r.Errors, r.Errors+r.Decided, 100*rehearsal.LoudShare, r.Decided)
+	}
+	return out
 }
 
 func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
@@ -266,6 +290,12 @@ func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
 		r.Worlds, r.Seed, 100*r.Misspecified, r.Sizes.Horizon)
 	fmt.Fprintf(w, "sizes: %d bootstrap draws of the data for the worlds; per world %d draws and %d recovery panels; %.1f s per world\n\n",
 		r.Sizes.BaseDraws, r.Sizes.WorldDraws, r.Sizes.Replicates, took.Seconds()/float64(max(r.Worlds, 1)))
+	if len(r.Sizes.Shrunk) > 0 {
+		fmt.Fprintf(w, "smaller than propose's own decision: %s\n", strings.Join(r.Sizes.Shrunk, "; "))
+	}
+	if r.Errors > 0 && float64(r.Errors) > rehearsal.LoudShare*float64(r.Errors+r.Decided) {
+		fmt.Fprintf(w, "WARNING: %d of %d worlds could not be decided (see below)\n", r.Errors, r.Errors+r.Decided)
+	}
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintln(tw, "decided by\tworlds\tP(loss)\tmean gain\t5% gain\tof oracle\trefused\t")
 	row := func(name string, s rehearsal.Summary) {
@@ -297,10 +327,74 @@ func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
 		fmt.Fprintln(tw)
 	}
 	tw.Flush()
-	if r.Errors > 0 {
-		fmt.Fprintf(w, "\n%d worlds could not be decided (fit, bootstrap or allocation failed) and are left out\n", r.Errors)
-	}
+	printCheckRates(w, r)
+	printFailures(w, r)
 	fmt.Fprintln(w, "\nthe worlds are simulated from this model's family and a few named departures from it; a rehearsal shows how the policy behaves there, not in the real market")
+}
+
+// printCheckRates prints each check's stated and realised false-alarm rate
+// and its power per misspecified kind.
+func printCheckRates(w io.Writer, r rehearseOutput) {
+	if len(r.Checks) == 0 {
+		return
+	}
+	var kinds []rehearsal.Kind
+	for _, k := range rehearsal.AllKinds {
+		for _, c := range r.Checks {
+			if _, ok := c.Power[k]; ok {
+				kinds = append(kinds, k)
+				break
+			}
+		}
+	}
+	fmt.Fprintln(w, "\nchecks: stated false-alarm rate, realised in well-specified worlds, share not judged there (a channel fitted to zero),")
+	fmt.Fprintln(w, "and power (fired on the affected channel) per kind")
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprint(tw, "check\tstated\trealised\tnot judged\t")
+	for _, k := range kinds {
+		fmt.Fprintf(tw, "%s\t", k)
+	}
+	fmt.Fprintln(tw)
+	for _, c := range r.Checks {
+		stated := "not a test"
+		if c.Stated > 0 {
+			stated = fmt.Sprintf("%.1f%%", 100*c.Stated)
+		}
+		real := "-"
+		if c.Worlds > 0 {
+			real = fmt.Sprintf("%.1f%%", 100*c.FalseAlarm)
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%.1f%%\t", c.Name, stated, real, 100*c.Untested)
+		for _, k := range kinds {
+			if v, ok := c.Power[k]; ok {
+				fmt.Fprintf(tw, "%.0f%%\t", 100*v)
+			} else {
+				fmt.Fprint(tw, "-\t")
+			}
+		}
+		fmt.Fprintln(tw)
+	}
+	tw.Flush()
+}
+
+// printFailures says how many worlds failed, by stage with the first
+// reasons, and loudly when more than a tenth did.
+func printFailures(w io.Writer, r rehearseOutput) {
+	if r.Errors == 0 {
+		return
+	}
+	n := r.Errors + r.Decided
+	if r.Decided > 0 && float64(r.Errors) > rehearsal.LoudShare*float64(n) {
+		fmt.Fprintf(w, "\nWARNING: %d of %d worlds (%.0f%%) could not be decided; the figures cover only the %d that could, which may not be like the others\n",
+			r.Errors, n, 100*float64(r.Errors)/float64(n), r.Decided)
+	}
+	fmt.Fprintf(w, "\n%d of %d worlds could not be decided and are left out of every figure; by stage:\n", r.Errors, n)
+	for _, f := range r.Failures {
+		fmt.Fprintf(w, "  %s: %d\n", f.Stage, f.Worlds)
+		for _, why := range f.Reasons {
+			fmt.Fprintf(w, "    %s\n", why)
+		}
+	}
 }
 
 func lossShare(s *rehearsal.Summary) string {

@@ -259,9 +259,18 @@ func printEvidence(w io.Writer, in *modelInput, out validateOutput) {
 	fmt.Fprintf(w, "validation of the %s model over %d weeks (%s); seed %d\n\n", in.Panel.KPIName, in.Panel.NumWeeks(),
 		filepath.Base(in.DataPath), out.Seed)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-	fmt.Fprintln(tw, "status\tcheck\tscope\tmetric\tthreshold\tdetail")
+	fmt.Fprintln(tw, "status\tcheck\tscope\tmetric\tp-value\tfails below\tdetail")
 	for _, c := range out.Checks {
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\n", c.Status, c.Name, c.Scope, plain(c.Metric, 4), plain(c.Threshold, 4), c.Detail)
+		p, rate := "-", "raw "+plain(c.Threshold, 4)
+		switch {
+		case c.Basis == validation.BasisPrecision:
+			rate = "precision"
+		case c.PValue != nil && !c.RawThreshold:
+			p, rate = fmt.Sprintf("%.3g", *c.PValue), fmt.Sprintf("%.3g", c.Rate)
+		case c.PValue != nil:
+			p = fmt.Sprintf("%.3g", *c.PValue)
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\n", c.Status, c.Name, c.Scope, plain(c.Metric, 4), p, rate, c.Detail)
 	}
 	tw.Flush()
 	if len(out.Calibration) > 0 {
@@ -277,5 +286,8 @@ func printEvidence(w io.Writer, in *modelInput, out validateOutput) {
 	for _, n := range out.Notes {
 		fmt.Fprintln(w, "note:", n)
 	}
+	fmt.Fprintln(w, "a tested check fails when its p-value (the chance of a metric this bad if the fitted model were right) is below its")
+	fmt.Fprintln(w, "false-alarm rate: 5% per family, shared over its checks; \"precision\" checks measure how settled the model is and")
+	fmt.Fprintln(w, "are carried by the risk limits of propose; \"raw\" checks use a fixed limit")
 	fmt.Fprintln(w, "the checks estimate how far the model can be trusted; they do not guarantee it")
 }
