@@ -273,10 +273,10 @@ secs() { awk -v a="$1" -v b="$2" 'BEGIN {printf "%.1f", b - a}'; }
 if [ "$mode" = scale ]; then
 	draws=${FANOUT_SCALE_DRAWS:-8000}
 	say "scale: $draws replicates of the 312-week, 12-channel panel; $cpus CPUs; load $(cut -d' ' -f1-3 /proc/loadavg)"
-	"$sluice" simulate --truth "$repo/examples/slurm/panel-312x12.yaml" --out "$work/data" >/dev/null
+	"$sluice" simulate --truth "$repo/examples/slurm/panel-312x12.yaml" --dir "$work/data" >/dev/null
 	channels=$(head -n1 "$work/data/weekly.csv" | tr ',' '\n' | grep '^c[0-9]' | paste -sd, -)
 	big=(--data "$work/data/weekly.csv" --kpi sales --channels "$channels" --controls price_index,promo
-		--draws "$draws" --seed 7)
+		--bootstrap-draws "$draws" --seed 7)
 	export SLUICE_BIN=$sluice
 	t0=$(now)
 	"$sluice" bootstrap "${big[@]}" --workers "$cpus" --quiet --out "$work/ref/draws.jsonl"
@@ -358,7 +358,7 @@ export SLUICE_BIN=$work/bin/flaky-sluice
 
 model=(--data "$repo/examples/weekly.csv" --kpi revenue --channels search,social,tv,online_video,display,audio
 	--controls price_index,promo --starts 3)
-boot=("${model[@]}" --draws 48 --seed 7)
+boot=("${model[@]}" --bootstrap-draws 48 --seed 7)
 reh=("${model[@]}" --plan "$repo/examples/plan.yaml" --policy standard --policy cautious --worlds 6 --seed 5
 	--base-draws 12 --world-draws 12 --world-replicates 3)
 
@@ -370,7 +370,7 @@ cd "$repo"
 
 say "unsharded runs, for reference"
 "$sluice" bootstrap "${boot[@]}" --quiet --workers 1 --out "$work/ref/draws.jsonl"
-"$sluice" rehearse "${reh[@]}" --quiet --workers 1 --out "$work/ref/rehearsal" >/dev/null
+"$sluice" rehearse "${reh[@]}" --quiet --workers 1 --dir "$work/ref/rehearsal" >/dev/null
 
 say "waiting for the array jobs (at most $wait_limit s)"
 wait_for "end of both array jobs" finished "$(job_id boot tasks 1)" "$(job_id reh tasks 1)"

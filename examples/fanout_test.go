@@ -87,7 +87,7 @@ func (e *fanoutEnv) touch(rel string) {
 
 func TestFanoutBootstrap(t *testing.T) {
 	e := newFanoutEnv(t)
-	out, ok := e.fanout(nil, "submit", "bootstrap", "4", e.run, "--data", "my data.csv", "--channels", "a,b", "--draws", "8000", "--seed", "7")
+	out, ok := e.fanout(nil, "submit", "bootstrap", "4", e.run, "--data", "my data.csv", "--channels", "a,b", "--bootstrap-draws", "8000", "--seed", "7")
 	if !ok {
 		t.Fatalf("submit: %s", out)
 	}
@@ -107,7 +107,7 @@ func TestFanoutBootstrap(t *testing.T) {
 	if !ok {
 		t.Fatalf("task: %s", out)
 	}
-	wantRun := "bootstrap --data my data.csv --channels a,b --draws 8000 --seed 7 --quiet --shard 3/4 --out " + e.run + "/part-3.jsonl\nworkers=1\n"
+	wantRun := "bootstrap --data my data.csv --channels a,b --bootstrap-draws 8000 --seed 7 --quiet --shard 3/4 --out " + e.run + "/part-3.jsonl\nworkers=1\n"
 	if got := e.read("sluice.log"); got != wantRun {
 		t.Errorf("task 3 ran:\n%s\nwant\n%s", got, wantRun)
 	}
@@ -161,7 +161,7 @@ func TestFanoutRehearsalResubmitTwoShards(t *testing.T) {
 	if !ok {
 		t.Fatalf("task: %s", out)
 	}
-	if got, want := e.read("sluice.log"), "rehearse --worlds 400 --quiet --shard 5/5 --out "+e.run+"/part-5\nworkers=2\n"; got != want {
+	if got, want := e.read("sluice.log"), "rehearse --worlds 400 --quiet --shard 5/5 --dir "+e.run+"/part-5\nworkers=2\n"; got != want {
 		t.Errorf("task 5 ran %q, want %q", got, want)
 	}
 	// A rehearsal shard is done when its rehearsal.json is there; a bare

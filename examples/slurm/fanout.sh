@@ -45,7 +45,7 @@ fail() {
 
 usage() {
 	fail "usage: fanout.sh submit KIND N RUNDIR [sluice flags...] | status RUNDIR | resubmit RUNDIR | merge RUNDIR" \
-		"fanout.sh submit bootstrap 8 runs/boot --data weekly.csv --kpi revenue --channels search,tv --draws 8000 --seed 7"
+		"fanout.sh submit bootstrap 8 runs/boot --data weekly.csv --kpi revenue --channels search,tv --bootstrap-draws 8000 --seed 7"
 }
 
 # load_run DIR: read DIR/run.args into kind, shards and flags.
@@ -116,7 +116,7 @@ submit)
 	[ "$shards" -ge 1 ] || fail "N must be at least 1"
 	for f in "$@"; do
 		case $f in
-		--shard | --shard=* | -shard | -shard=* | --out | --out=* | -out | -out=*)
+		--shard | --shard=* | -shard | -shard=* | --out | --out=* | -out | -out=* | --dir | --dir=* | -dir | -dir=*)
 			fail "$f is set by fanout.sh (shard K of N per task, outputs in RUNDIR)" ;;
 		esac
 	done
@@ -171,7 +171,7 @@ task)
 	if [ "$kind" = bootstrap ]; then
 		"$sluice_bin" bootstrap "${flags[@]}" --quiet --shard "$k/$shards" --out "$dir/part-$k.jsonl"
 	else
-		"$sluice_bin" rehearse "${flags[@]}" --quiet --shard "$k/$shards" --out "$dir/part-$k"
+		"$sluice_bin" rehearse "${flags[@]}" --quiet --shard "$k/$shards" --dir "$dir/part-$k"
 	fi
 	;;
 merge)
@@ -188,7 +188,7 @@ merge)
 	if [ "$kind" = bootstrap ]; then
 		ok=0; "$sluice_bin" merge --out "$dir/draws.jsonl" "${parts[@]}" || ok=$?
 	else
-		ok=0; "$sluice_bin" rehearse-merge --out "$dir/rehearsal" "${parts[@]}" || ok=$?
+		ok=0; "$sluice_bin" rehearse-merge --dir "$dir/rehearsal" "${parts[@]}" || ok=$?
 	fi
 	[ "$ok" -eq 0 ] || fail "merge of $dir failed" "if shards are missing: fanout.sh resubmit $dir"
 	;;
