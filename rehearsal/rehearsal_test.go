@@ -152,7 +152,11 @@ func TestWorldsDependOnSeedAndIndexOnly(t *testing.T) {
 // checks exist to catch (common practice, no source), so worlds with them
 // must fail a larger share of checks than their well-specified twins: the
 // same draw, noise and decision seed without the departure. The figures
-// are logged; the difference is small (see the package's report).
+// are logged; the difference is small. The accuracy family's failures are
+// logged, not asserted: calibrated to a 5% false-alarm rate, its power
+// against drift and confounders at 156 weeks is near zero (the README's
+// rehearsal section measures it over 200 worlds), so 8 worlds cannot
+// carry a claim about it.
 func TestValidationSeesDetectableDepartures(t *testing.T) {
 	if testing.Short() {
 		t.Skip("fits and bootstraps several worlds")
@@ -196,8 +200,5 @@ func TestValidationSeesDetectableDepartures(t *testing.T) {
 	t.Logf("mean share of failed checks: well-specified %.3f, drift/confounder %.3f; accuracy failures %d vs %d", sw, sb, aw, ab)
 	if !(sb > sw) {
 		t.Errorf("drift/confounder worlds fail %.3f of checks, not more than their well-specified twins' %.3f", sb, sw)
-	}
-	if !(ab > aw) {
-		t.Errorf("drift/confounder worlds fail %d accuracy checks, not more than their twins' %d", ab, aw)
 	}
 }

@@ -65,7 +65,9 @@ func budgetView(run *decisionRun, plan *optimize.Plan) []report.BudgetPoint {
 			p.Budget = optimize.BudgetRule{Kind: optimize.BudgetChange, Change: x}
 		}
 		bp := report.BudgetPoint{Change: x}
-		res, err := allocate(run.in, &p, run.draws, run.point)
+		// As in the decision: the allocator optimises over its half of the
+		// draws, the other half judges its plan (no optimiser's curse).
+		res, err := allocate(run.in, &p, run.alloc, run.point)
 		if err != nil {
 			bp.Error = err.Error()
 			out = append(out, bp)

@@ -187,7 +187,8 @@ type decisionRun struct {
 	rec      *record.Decision
 	bytes    []byte
 	in       *modelInput
-	draws    []model.Params
+	draws    []model.Params // the half of the draws that judges (gate, risk, forecast)
+	alloc    []model.Params // the half the allocator optimised over
 	point    model.Params
 	curves   *model.Curves
 	econ     optimize.Economics
@@ -309,7 +310,7 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	if err != nil {
 		return nil, err
 	}
-	return &decisionRun{rec: rec, bytes: b, in: in, draws: out.Judged, point: out.Point, curves: out.Curves, econ: out.Economics,
+	return &decisionRun{rec: rec, bytes: b, in: in, draws: out.Judged, alloc: out.Allocated, point: out.Point, curves: out.Curves, econ: out.Economics,
 		gains: out.Gains, backtest: out.Validation.Backtest, policy: pol}, nil
 }
 
