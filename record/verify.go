@@ -1,11 +1,8 @@
 package record
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
 	"errors"
 	"fmt"
-	"io"
 	"io/fs"
 	"regexp"
 	"slices"
@@ -299,16 +296,7 @@ func hashFile(path string) (string, error) {
 	if path == "" || strings.HasPrefix(path, "preset:") {
 		return "", fs.ErrNotExist
 	}
-	f, err := boundedio.Open(path, boundedio.MaxDraws) // inputs include draws files
-	if err != nil {
-		return "", err
-	}
-	defer f.Close()
-	h := sha256.New()
-	if _, err := io.Copy(h, f); err != nil {
-		return "", err
-	}
-	return hex.EncodeToString(h.Sum(nil)), nil
+	return boundedio.SHA256(path, boundedio.MaxDraws) // inputs include draws files
 }
 
 // BriefMetaName is the name of the <meta> element in a brief's head whose

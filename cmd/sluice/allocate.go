@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"strings"
 	"text/tabwriter"
 
 	"github.com/urfave/cli/v2"
@@ -201,13 +200,7 @@ func printAllocation(w io.Writer, a allocateOutput) {
 		ok = "FAILS"
 	}
 	fmt.Fprintf(w, "optimality check %s (largest violation %s): %s; %d of %d starts agreed; %s\n", ok, plain(a.KKT.MaxViolation, 2), a.KKT.Detail, a.Agreed, a.Starts, a.Status)
-	for _, wn := range a.Warnings {
-		text, hint, _ := strings.Cut(wn, "; hint: ")
-		fmt.Fprintf(w, "warning: %s\n", text)
-		if hint != "" {
-			fmt.Fprintf(w, "hint: %s\n", hint)
-		}
-	}
+	printWarnings(w, a.Warnings)
 	fmt.Fprintln(w, "this is a proposal: `sluice propose` sizes each move to what the evidence supports")
 }
 

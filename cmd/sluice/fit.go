@@ -204,13 +204,7 @@ func printFitTable(w io.Writer, s fitSummary) {
 	fmt.Fprintf(w, "\nin-sample R² %.3f  wMAPE %.1f%%  residual SD %s  Durbin–Watson %.2f\n", f.R2, 100*f.WMAPE, plain(f.Sigma, 4), f.DurbinWatson)
 	fmt.Fprintf(w, "fit: %s; %d of %d starts converged; best SSE %s; %d evaluations; %d parameters; seed %d\n",
 		f.Status, f.Converged, f.Starts, plain(f.SSE, 6), f.Evaluations, f.Parameters, s.Seed)
-	for _, wn := range s.Warnings {
-		text, hint, _ := strings.Cut(wn, "; hint: ")
-		fmt.Fprintf(w, "warning: %s\n", text)
-		if hint != "" {
-			fmt.Fprintf(w, "hint: %s\n", hint)
-		}
-	}
+	printWarnings(w, s.Warnings)
 	fmt.Fprintln(w, "in-sample fit is not evidence of a good model: run `sluice validate` for holdout and recovery checks")
 	printEffect(w, s)
 }
@@ -299,4 +293,16 @@ func writeJSON(path string, v any) error {
 		return err
 	}
 	return atomicfile.Write(path, append(b, '\n'), 0o644)
+}
+
+// printWarnings prints warnings of the form "text; hint: fix" as a
+// warning line and, when there is one, a hint line.
+func printWarnings(w io.Writer, warnings []string) {
+	for _, wn := range warnings {
+		text, hint, _ := strings.Cut(wn, "; hint: ")
+		fmt.Fprintf(w, "warning: %s\n", text)
+		if hint != "" {
+			fmt.Fprintf(w, "hint: %s\n", hint)
+		}
+	}
 }

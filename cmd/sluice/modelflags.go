@@ -1,11 +1,8 @@
 package main
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
 	"errors"
 	"fmt"
-	"io"
 
 	"github.com/urfave/cli/v2"
 
@@ -189,14 +186,5 @@ func (in *modelInput) loadLifts(path string) error {
 // sha256File hashes the file at path as it streams (a draws file may be
 // far larger than the other inputs: the larger limit applies).
 func sha256File(path string) (string, error) {
-	f, err := boundedio.Open(path, boundedio.MaxDraws)
-	if err != nil {
-		return "", err
-	}
-	defer f.Close()
-	h := sha256.New()
-	if _, err := io.Copy(h, f); err != nil {
-		return "", err
-	}
-	return hex.EncodeToString(h.Sum(nil)), nil
+	return boundedio.SHA256(path, boundedio.MaxDraws)
 }

@@ -5,6 +5,8 @@
 package boundedio
 
 import (
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
@@ -129,3 +131,18 @@ func (b *File) Read(p []byte) (int, error) {
 
 // Close closes the file.
 func (b *File) Close() error { return b.f.Close() }
+
+// SHA256 hashes the file at path as it streams, within limit, and returns
+// the hex digest.
+func SHA256(path string, limit int64) (string, error) {
+	f, err := Open(path, limit)
+	if err != nil {
+		return "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", err
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
+}
