@@ -12,7 +12,7 @@ import (
 // effectWorld simulates a 156-week panel with two channels; search's
 // effectiveness rises linearly by drift over the history (the simulator's
 // own definition: β(t) = β·(1 + drift·t/(n−1))), social's is constant.
-func effectWorld(t *testing.T, drift float64) (*model.Panel, *model.Design, *optimize.Plan) {
+func effectWorld(t testing.TB, drift float64) (*model.Panel, *model.Design, *optimize.Plan) {
 	t.Helper()
 	truth := &model.Truth{Seed: 4, Weeks: 156, Intercept: 100000, NoiseSD: 0.03, Channels: []model.TrueChannel{
 		{Name: "search", MeanSpend: 10000, Variation: 0.6, Dark: 0.1, Decay: 0.2, HalfSat: 1.0, Shape: 1.2, Beta: 60000, Drift: drift},
