@@ -67,7 +67,17 @@ type Settings struct {
 	BootstrapDraws int
 	// Replicates is the recovery check's panel count; 0 means DefaultReplicates.
 	Replicates int
-	// Progress, if not nil, is told the stage ("bootstrap", "validation")
+	// EffectChoice runs the effectiveness evidence (drifting kind) on the
+	// design before the bootstrap and, when it prefers a drifting
+	// effectiveness, decides on a design where the changed channels drift,
+	// so the draws, the allocation and the gate use the end-of-history
+	// effectiveness. With Input.Draws given the draws' specification is
+	// kept and the record notes what the evidence preferred.
+	EffectChoice bool
+	// EffectReplicates is the evidence's bootstrap size; 0 means
+	// validation's default (60).
+	EffectReplicates int
+	// Progress, if not nil, is told the stage ("effectiveness", "bootstrap", "validation")
 	// and its progress.
 	Progress func(stage string, done, total int)
 }
@@ -104,6 +114,13 @@ type Outcome struct {
 	Curves            *model.Curves // of Judge
 	Economics         optimize.Economics
 	Gains             []float64 // of the approved plan, per judging draw
+	// Design is the model design the decision used: Input.Design, or its
+	// drifting version when the effectiveness choice switched to it.
+	Design *model.Design
+	// Effect is the effectiveness evidence (nil when not run) and
+	// EffectChoice its account for the record.
+	Effect       *validation.EffectResult
+	EffectChoice *record.EffectChoice
 }
 
 // Stage names where a decision failed, for reports that count failures.
@@ -186,6 +203,19 @@ func Prepare(ctx context.Context, in Input, s Settings) (*Prepared, error) {
 		return nil, fail(StageAllocation, err)
 	}
 
+	// Effectiveness: constant, or drifting where the evidence says so.
+	var choice *record.EffectChoice
+	var effect *validation.EffectResult
+	if s.EffectChoice || d.Spec.AnyDrifting() {
+		if s.Progress != nil {
+			s.Progress("effectiveness", 0, 1)
+		}
+		if d, choice, effect, err = chooseEffect(d, y, s, in.Draws != nil); err != nil {
+			return nil, fail(StageValidation, fmt.Errorf("effectiveness evidence: %w", err))
+		}
+		in.Design = d
+	}
+
 	// Draws: given, or a bootstrap here (which makes the point fit too).
 	dr := in.Draws
 	if dr == nil {
@@ -233,7 +263,8 @@ func Prepare(ctx context.Context, in Input, s Settings) (*Prepared, error) {
 		current[k] = l.Current
 	}
 	out := &Prepared{in: in, set: s, sigma: model.FitStats(y, fit.Residuals, d.Spec.NumParams()).Sigma,
-		Outcome: Outcome{Draws: dr, Point: point, Validation: val, Current: current, Judged: judge, Allocated: alloc, Economics: econ}}
+		Outcome: Outcome{Draws: dr, Point: point, Validation: val, Current: current, Judged: judge, Allocated: alloc, Economics: econ,
+			Design: d, Effect: effect, EffectChoice: choice}}
 	out.Curves = d.NewCurves(judge, h)
 	if in.Proposal != nil {
 		if len(in.Proposal) != len(names) {
@@ -308,7 +339,7 @@ func (p *Prepared) Judge(pol *policies.Policy, waivers []gate.Waiver) (*Outcome,
 		Channels: names, Horizon: h, Support: support, PolicySHA256: record.SHA256Hex(pol.Raw),
 		Draws: record.DrawsInfo{Count: len(dr.Replicates), Failed: dr.Failed(), Method: string(dr.Header.Method),
 			BlockLength: dr.Header.BlockLength},
-		Proposal: p.proposal, Decision: *gd, Caution: record.Caution}
+		Proposal: p.proposal, Effectiveness: p.EffectChoice, Decision: *gd, Caution: record.Caution}
 	// The counts as the policy graded the checks (its false-alarm rates).
 	rec.Evidence = map[string]int{"pass": 0, "warn": 0, "fail": 0}
 	for _, c := range gd.Checks {

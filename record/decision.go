@@ -63,6 +63,10 @@ type Decision struct {
 	Draws        DrawsInfo           `json:"draws"`
 	Evidence     map[string]int      `json:"evidence_summary"`
 	Proposal     Proposal            `json:"proposal"`
+	// Effectiveness is which effectiveness specification the decision's
+	// model used and why; absent when the choice was not run and every
+	// channel is constant.
+	Effectiveness *EffectChoice `json:"effectiveness,omitempty"`
 	gate.Decision
 	// Forecast is what the decision expects over the horizon under the
 	// approved plan, in the form next quarter's reconciliation reads.
@@ -71,6 +75,32 @@ type Decision struct {
 	// over the horizon.
 	ForecastTotal [3]float64 `json:"forecast_total"`
 	Caution       string     `json:"caution"`
+}
+
+// EffectChoice records the effectiveness specification a decision used:
+// Model is constant, drifting or seasonal, Channels the channels whose
+// effectiveness varies, Evidence how it was chosen, Preferred what the
+// evidence preferred (it differs from Model when draws were given), and
+// Changes each named channel's change with its interval.
+type EffectChoice struct {
+	Model         string         `json:"model"`
+	Channels      []string       `json:"channels,omitempty"`
+	Evidence      string         `json:"evidence"`
+	Preferred     string         `json:"preferred,omitempty"`
+	BacktestRatio float64        `json:"backtest_ratio,omitempty"`
+	Changes       []EffectChange `json:"changes,omitempty"`
+	Note          string         `json:"note,omitempty"`
+}
+
+// EffectChange is one channel's effectiveness in the last week over its
+// history average, with its 90% bootstrap interval and z.
+type EffectChange struct {
+	Channel string  `json:"channel"`
+	Change  float64 `json:"change"`
+	Low     float64 `json:"low"`
+	High    float64 `json:"high"`
+	Z       float64 `json:"z"`
+	Named   bool    `json:"named"`
 }
 
 // MarshalDecision returns the record's bytes: indented JSON with a final

@@ -367,3 +367,38 @@ func FuzzParseDecision(f *testing.F) {
 		}
 	})
 }
+
+// TestParseDecisionEffectiveness: the effectiveness choice is part of the
+// strict record: written and read back byte for byte (the record's own
+// canonical form), an unknown key inside it is refused naming the file
+// and the key (the record's decoder gives no line for unknown fields), and a record without it (every record before the choice) reads.
+func TestParseDecisionEffectiveness(t *testing.T) {
+	fin, lead := newDecisionKey(t, 1), newDecisionKey(t, 2)
+	d := decisionOf(decisionPolicy(t, fin, lead, ""), gate.Approve)
+	d.Effectiveness = &EffectChoice{Model: "drifting", Channels: []string{"search"}, Evidence: "invented for the test",
+		Preferred: "drifting", BacktestRatio: 0.85, Changes: []EffectChange{{Channel: "search", Change: 1.3, Low: 1.1, High: 1.5, Z: 3.2, Named: true}}}
+	rec := marshalRecord(t, d)
+	got, err := ParseDecision(rec, "d.json")
+	if err != nil {
+		t.Fatalf("the record as written: %v", err)
+	}
+	if got.Effectiveness == nil || got.Effectiveness.Model != "drifting" || len(got.Effectiveness.Changes) != 1 || !got.Effectiveness.Changes[0].Named {
+		t.Fatalf("read back %+v", got.Effectiveness)
+	}
+	if again := marshalRecord(t, got); !bytes.Equal(again, rec) {
+		t.Error("parse → marshal changed the bytes")
+	}
+	at := bytes.Index(rec, []byte(`    "model": "drifting",`))
+	if at < 0 {
+		t.Fatal("no model line")
+	}
+	bad := append(append(append([]byte{}, rec[:at]...), `    "modle": "constant",`+"\n"...), rec[at:]...)
+	_, err = ParseDecision(bad, "d.json")
+	if err == nil || !strings.HasPrefix(err.Error(), "d.json:") || !strings.Contains(err.Error(), `unknown field "modle"`) {
+		t.Errorf("unknown key inside effectiveness: got %v, want d.json: ... unknown field \"modle\"", err)
+	}
+	d.Effectiveness = nil
+	if _, err := ParseDecision(marshalRecord(t, d), "d.json"); err != nil {
+		t.Errorf("a record without the field: %v", err)
+	}
+}

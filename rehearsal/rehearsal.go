@@ -58,6 +58,10 @@ type Settings struct {
 	// Shard, if set, runs only its worlds (i % N == K-1); Merge combines
 	// the shards into exactly the result of one run.
 	Shard uncertainty.Shard
+	// EffectChoice runs, in every world, propose's effectiveness choice
+	// (decision.Settings.EffectChoice), so the rehearsal rehearses what
+	// propose decides by default.
+	EffectChoice bool
 	// Progress, if not nil, is told after each world.
 	Progress func(done, total int)
 
@@ -70,6 +74,9 @@ type Sizes struct {
 	WorldDraws int `json:"world_draws"`
 	Replicates int `json:"validation_replicates"`
 	Horizon    int `json:"horizon_weeks"`
+	// EffectChoice says whether each world's decision ran the
+	// effectiveness choice (propose's default).
+	EffectChoice bool `json:"effect_choice"`
 	// Shrunk names each size smaller in a world than in propose's own
 	// decision (package decision's defaults), so a reader knows the
 	// rehearsal's decisions are noisier than the real one.
@@ -121,11 +128,14 @@ type Score struct {
 
 // Outcome is one world's result.
 type Outcome struct {
-	Index        int      `json:"index"`
-	Kind         Kind     `json:"kind"`
-	Channel      string   `json:"channel,omitempty"`
-	Draw         int      `json:"draw"`
-	Seed         uint64   `json:"seed"` // of the world's decision (fit, bootstrap, validation, allocation)
+	Index   int    `json:"index"`
+	Kind    Kind   `json:"kind"`
+	Channel string `json:"channel,omitempty"`
+	Draw    int    `json:"draw"`
+	Seed    uint64 `json:"seed"` // of the world's decision (fit, bootstrap, validation, allocation)
+	// Drifting names the channels the effectiveness choice let drift in
+	// this world's decision (Settings.EffectChoice); empty: constant.
+	Drifting     []string `json:"drifting,omitempty"`
 	Checks       int      `json:"checks"`
 	FailedChecks []string `json:"failed_checks"` // name/scope of each failed check
 	// Stated is, per tested check name, the false-alarm rate it was
@@ -199,6 +209,9 @@ type Result struct {
 	// worlds) and power (per misspecified kind), graded at the default
 	// false-alarm rates.
 	Checks []CheckRate `json:"checks"`
+	// Drifting counts, per world kind, the decided worlds whose decision
+	// let some channel drift by the effectiveness choice.
+	Drifting map[Kind]int `json:"effect_drifting,omitempty"`
 }
 
 // CheckRate is how often one check (over all channels) failed. A check
@@ -283,7 +296,8 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 	if err != nil {
 		return nil, err
 	}
-	res := &Result{Seed: s.Seed, Sizes: Sizes{BaseDraws: s.BaseDraws, WorldDraws: s.WorldDraws, Replicates: s.Replicates, Horizon: h}}
+	res := &Result{Seed: s.Seed, Sizes: Sizes{BaseDraws: s.BaseDraws, WorldDraws: s.WorldDraws, Replicates: s.Replicates, Horizon: h,
+		EffectChoice: s.EffectChoice}}
 	res.Sizes.Shrunk = res.Sizes.shrunk()
 	for i := range s.Worlds {
 		if err := ctx.Err(); err != nil {
@@ -387,12 +401,15 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	}
 	in := decision.Input{Panel: w.Panel, Design: dw, Plan: p.Plan, Lifts: lifts}
 	prep, err := decision.Prepare(ctx, in, decision.Settings{Seed: w.Seed, Workers: s.Workers,
-		BootstrapDraws: s.WorldDraws, Replicates: s.Replicates})
+		BootstrapDraws: s.WorldDraws, Replicates: s.Replicates, EffectChoice: s.EffectChoice})
 	if err != nil {
 		return nil, err
 	}
 	val := prep.Validation
 	out := &Outcome{Index: w.Index, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Checks: len(val.Evidence.Checks)}
+	if ch := prep.EffectChoice; ch != nil && ch.Model == model.EffectDrifting {
+		out.Drifting = ch.Channels
+	}
 	for _, c := range val.Evidence.Checks {
 		if c.Status == validation.Fail {
 			out.FailedChecks = append(out.FailedChecks, c.Name+"/"+c.Scope)
@@ -478,6 +495,7 @@ func (r *Result) summarize(policies []string) {
 		r.Policies[j] = Summary{Name: name}
 	}
 	checks := map[Kind][2]float64{} // Σ failed share, worlds
+	r.Drifting = nil
 	r.Errors, r.Decided, r.Failures = 0, 0, []Failure{}
 	byStage := map[string]int{}
 	for _, o := range r.Worlds {
@@ -501,6 +519,12 @@ func (r *Result) summarize(policies []string) {
 			continue
 		}
 		r.Decided++
+		if len(o.Drifting) > 0 {
+			if r.Drifting == nil {
+				r.Drifting = map[Kind]int{}
+			}
+			r.Drifting[o.Kind]++
+		}
 		r.Raw.add(o.Kind, o.Raw, o.Oracle.TrueGain)
 		for j := range r.Policies {
 			r.Policies[j].add(o.Kind, o.Policies[j], o.Oracle.TrueGain)

@@ -110,6 +110,9 @@ type Input struct {
 	// and the actual against the fitted KPI with its residuals.
 	Contributions *Contributions
 	Budget        []BudgetPoint // the budget view; may be empty
+	// Effect, when not empty, draws each drifting channel's effectiveness
+	// over time with its band (the decision's effectiveness choice).
+	Effect []EffectPath
 	// RecordSHA256 is the hex SHA-256 of the record file's exact bytes. The
 	// brief names it in one marked place, read by `sluice verify --brief`:
 	// <meta name="sluice-record-sha256" content="HEX"> in the head and the

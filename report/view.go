@@ -66,6 +66,9 @@ type view struct {
 	HoldoutChart   template.HTML
 	HoldoutCaption string
 
+	EffectChart   template.HTML
+	EffectCaption string
+
 	Problems        []evidenceRow // failed and warned checks
 	EvidenceSummary string
 
@@ -187,6 +190,9 @@ func newView(in Input) (*view, error) {
 			return nil, err
 		}
 		v.Curves = append(v.Curves, curveView{Channel: cb.Channel, Chart: svg, Caption: caption})
+	}
+	if err := v.effect(in.Effect); err != nil {
+		return nil, err
 	}
 	if in.Holdout != nil {
 		doc, err := holdoutChart(in.Holdout, kpi)

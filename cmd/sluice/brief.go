@@ -35,12 +35,13 @@ type briefData struct {
 	Holdout       *report.Holdout       `json:"holdout,omitempty"`
 	Contributions *report.Contributions `json:"contributions,omitempty"`
 	Budget        []report.BudgetPoint  `json:"budget,omitempty"`
+	Effect        []report.EffectPath   `json:"effectiveness,omitempty"`
 }
 
 // input is the brief's input for rec with these sign-offs.
 func (bd *briefData) input(rec *record.Decision, signed []string, sigs []report.Signature) report.Input {
 	return report.Input{Record: rec, Signed: signed, Signatures: sigs, Curves: bd.Curves, Gains: bd.Gains,
-		Holdout: bd.Holdout, Title: bd.Title, Money: bd.Money, Contributions: bd.Contributions, Budget: bd.Budget}
+		Holdout: bd.Holdout, Title: bd.Title, Money: bd.Money, Contributions: bd.Contributions, Budget: bd.Budget, Effect: bd.Effect}
 }
 
 // budgetSteps are the budget view's totals against the decision's own.
@@ -129,6 +130,7 @@ func newBriefData(run *decisionRun, title string) *briefData {
 		}
 		bd.Curves = append(bd.Curves, cb)
 	}
+	bd.Effect = effectPaths(run)
 	if bt := run.backtest; bt != nil && !bt.Short && len(bt.Actual) > 0 {
 		h := &report.Holdout{Actual: bt.Actual, Forecast: bt.Forecast}
 		first := in.Panel.NumWeeks() - len(bt.Actual)
@@ -306,4 +308,25 @@ func countRequired(rec *record.Decision, signed []string) int {
 		}
 	}
 	return n
+}
+
+// effectPaths are the brief's effectiveness-over-time paths: one per
+// channel the decision's model lets drift by the effectiveness evidence.
+func effectPaths(run *decisionRun) []report.EffectPath {
+	ch := run.rec.Effectiveness
+	if run.effect == nil || ch == nil || ch.Model != model.EffectDrifting {
+		return nil
+	}
+	var weeks []string
+	for _, w := range run.in.Panel.Weeks {
+		weeks = append(weeks, w.Format(time.DateOnly))
+	}
+	var out []report.EffectPath
+	for _, c := range run.effect.Channels {
+		if slices.Contains(ch.Channels, c.Name) {
+			out = append(out, report.EffectPath{Channel: c.Name, Weeks: weeks, Path: c.Path, PathLow: c.PathLow, PathHigh: c.PathHigh,
+				Change: c.Change, Low: c.Low, High: c.High})
+		}
+	}
+	return out
 }

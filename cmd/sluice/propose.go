@@ -8,9 +8,11 @@ import (
 	"io"
 	"math"
 	"os"
+	"os/signal"
 	"path/filepath"
 	"slices"
 	"strings"
+	"syscall"
 	"text/tabwriter"
 
 	"github.com/urfave/cli/v2"
@@ -25,6 +27,7 @@ import (
 	"sluice/policies"
 	"sluice/record"
 	"sluice/report"
+	"sluice/uncertainty"
 	"sluice/validation"
 )
 
@@ -42,6 +45,7 @@ func decisionFlags() []cli.Flag {
 		&cli.StringFlag{Name: "proposal", Usage: "gate this plan (YAML: channels: {name: weekly spend}) instead of the allocator's"},
 		&cli.StringFlag{Name: "waivers", Usage: "signatures file of an earlier record whose signed waivers apply to this decision"},
 		&cli.BoolFlag{Name: "quiet", Usage: "no progress bar"},
+		&cli.BoolFlag{Name: "effect-choice", Value: true, Usage: "test whether each channel's effectiveness changed over the history and, when the evidence is strong, decide with those channels drifting (--effect-choice=false: keep the specification as given)"},
 	)
 }
 
@@ -195,6 +199,7 @@ type decisionRun struct {
 	gains    []float64 // of the approved plan, per draw
 	backtest *validation.BacktestResult
 	policy   *policies.Policy
+	effect   *validation.EffectResult // the effectiveness evidence; nil when not run
 }
 
 // proposalFile is a plan a person wrote: weekly spend per channel.
@@ -207,12 +212,16 @@ type decisionArgs struct {
 	Plan, Policy, Draws, Lifts, Records, Proposal, Waivers string
 	BootstrapDraws                                         int
 	Quiet                                                  bool
+	// NoEffectChoice keeps the model's effectiveness specification as
+	// given (propose --effect-choice=false).
+	NoEffectChoice bool
 }
 
 func decisionArgsFrom(c *cli.Context, o *opts) decisionArgs {
 	return decisionArgs{Plan: o.String("plan"), Policy: o.String("policy"), Draws: c.String("draws"),
 		Lifts: o.String("lifts"), Records: o.String("records"), Proposal: o.String("proposal"),
-		Waivers: o.String("waivers"), BootstrapDraws: o.Int("bootstrap-draws"), Quiet: o.Bool("quiet")}
+		Waivers: o.String("waivers"), BootstrapDraws: o.Int("bootstrap-draws"), Quiet: o.Bool("quiet"),
+		NoEffectChoice: !o.Bool("effect-choice")}
 }
 
 // decide reads the decision's files and runs the one decision pipeline
@@ -260,12 +269,24 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	}
 	inputs["policy"] = record.Input{Path: policyPath, SHA256: record.SHA256Hex(pol.Raw)}
 
-	d, drawsPath, err := drawsFor(c, in, a.Draws, a.BootstrapDraws, a.Quiet)
-	if err != nil {
-		return nil, err
-	}
-	if err := addInput("draws", drawsPath); err != nil {
-		return nil, err
+	// Without a draws file the pipeline runs the bootstrap itself, after
+	// the effectiveness choice, so the draws are of the chosen model.
+	var d *uncertainty.Draws
+	var bar *replicateBar
+	set := decision.Settings{Seed: in.Seed, Workers: in.Workers, EffectChoice: !a.NoEffectChoice, BootstrapDraws: a.BootstrapDraws}
+	if a.Draws != "" {
+		if d, err = loadDraws(in, a.Draws); err != nil {
+			return nil, err
+		}
+		if err := addInput("draws", a.Draws); err != nil {
+			return nil, err
+		}
+	} else if bar = progressBar(c, a.Quiet); bar != nil {
+		set.Progress = func(stage string, done, total int) {
+			if stage == "bootstrap" {
+				bar.update(done, total)
+			}
+		}
 	}
 	di := decision.Input{Panel: in.Panel, Design: in.Design, Plan: plan, Policy: pol, Draws: d,
 		MadeWith: map[string]string{"data_sha256": in.DataSHA256}}
@@ -300,9 +321,24 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	if err := addInput("waivers", a.Waivers); err != nil {
 		return nil, err
 	}
-	out, err := decision.Make(c.Context, di, decision.Settings{Seed: in.Seed, Workers: in.Workers})
+	ctx, stop := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	out, err := decision.Make(ctx, di, set)
+	bar.finish()
 	if err != nil {
+		if ctx.Err() != nil {
+			return nil, errors.New("interrupted; nothing was written")
+		}
 		return nil, err
+	}
+	if a.Draws == "" {
+		for _, n := range out.Draws.Notes() {
+			printNote(c.App.ErrWriter, n)
+		}
+	}
+	if ch := out.EffectChoice; ch != nil && ch.Note != "" {
+		fmt.Fprintf(c.App.ErrWriter, "note: %s\nhint: rerun sluice bootstrap with --drifting %s and pass the new draws, or drop --draws so propose runs the bootstrap of the chosen model\n",
+			ch.Note, strings.Join(namedChanges(ch), ","))
 	}
 	rec := out.Record
 	rec.Version, rec.Inputs = version, inputs
@@ -310,7 +346,14 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 	if err != nil {
 		return nil, err
 	}
-	return &decisionRun{rec: rec, bytes: b, in: in, draws: out.Judged, alloc: out.Allocated, point: out.Point, curves: out.Curves, econ: out.Economics,
+	if out.Design != nil && out.Design != in.Design {
+		// The effectiveness choice switched the model: the brief reads the
+		// draws with the design they were made with.
+		chosen := *in
+		chosen.Design, chosen.Spec = out.Design, out.Design.Spec
+		in = &chosen
+	}
+	return &decisionRun{rec: rec, bytes: b, in: in, effect: out.Effect, draws: out.Judged, alloc: out.Allocated, point: out.Point, curves: out.Curves, econ: out.Economics,
 		gains: out.Gains, backtest: out.Validation.Backtest, policy: pol}, nil
 }
 
@@ -382,6 +425,7 @@ func printDecision(w io.Writer, r *record.Decision) {
 	}
 	tw.Flush()
 	a := r.Risk.Approved
+	printEffectChoice(w, r.Effectiveness)
 	fmt.Fprintf(w, "\nverdict: %s\n", strings.ToUpper(string(r.Verdict)))
 	for i, why := range r.Reasons {
 		if i == 3 {
@@ -397,4 +441,37 @@ func printDecision(w io.Writer, r *record.Decision) {
 		fmt.Fprintf(w, "  %-18s %s (%s)\n", s.Role, s.Explanation, s.Rule)
 	}
 	fmt.Fprintln(w, "\n"+record.Caution)
+}
+
+// printEffectChoice prints which effectiveness specification the decision
+// used and why, with each named channel's change.
+func printEffectChoice(w io.Writer, ch *record.EffectChoice) {
+	if ch == nil {
+		return
+	}
+	m := ch.Model
+	if len(ch.Channels) > 0 {
+		m += " (" + strings.Join(ch.Channels, ", ") + ")"
+	}
+	fmt.Fprintf(w, "\neffectiveness: %s; %s\n", m, ch.Evidence)
+	for _, c := range ch.Changes {
+		if c.Named {
+			fmt.Fprintf(w, "  %s: effectiveness in the last week %+.0f%% against its history average (90%% interval %+.0f%% to %+.0f%%)\n",
+				c.Channel, 100*(c.Change-1), 100*(c.Low-1), 100*(c.High-1))
+		}
+	}
+	if ch.Note != "" {
+		fmt.Fprintf(w, "  note: %s\n", ch.Note)
+	}
+}
+
+// namedChanges lists the channels whose change the evidence named.
+func namedChanges(ch *record.EffectChoice) []string {
+	var out []string
+	for _, c := range ch.Changes {
+		if c.Named {
+			out = append(out, c.Channel)
+		}
+	}
+	return out
 }

@@ -20,7 +20,8 @@ import (
 // file, runs `sluice propose` on it with the world's seed and sizes, and
 // requires the decision the rehearsal scored for that world: the same
 // verdict and, to the cent, the same approved plan. Both call the one
-// pipeline (package decision); this shows nothing differs in the wiring.
+// pipeline (package decision), both with the effectiveness choice that
+// propose runs by default; this shows nothing differs in the wiring.
 func TestProposeMatchesRehearsalWorld(t *testing.T) {
 	dir := t.TempDir()
 	cols := model.Columns{KPI: "revenue", Channels: []string{"search", "social", "tv", "online_video", "display", "audio"},
@@ -43,7 +44,7 @@ func TestProposeMatchesRehearsalWorld(t *testing.T) {
 		t.Fatal(err)
 	}
 	prob := rehearsal.Problem{Panel: panel, Design: design, Plan: plan, Policies: []*policies.Policy{pol}}
-	set := rehearsal.Settings{Seed: 11, Worlds: 1, BaseDraws: 4, WorldDraws: 24, Replicates: 20, Workers: 2}
+	set := rehearsal.Settings{Seed: 11, Worlds: 1, BaseDraws: 4, WorldDraws: 24, Replicates: 20, Workers: 2, EffectChoice: true}
 	ctx := context.Background()
 	res, err := rehearsal.Run(ctx, prob, set)
 	if err != nil {

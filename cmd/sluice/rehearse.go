@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"maps"
 	"os"
 	"os/signal"
 	"path/filepath"
@@ -48,6 +49,7 @@ func rehearseCommand() *cli.Command {
 			&cli.StringFlag{Name: "shard", Value: "1/1", Usage: "run only shard K of N: worlds i with i % N == K-1 (combine with sluice rehearse-merge)"},
 			&cli.BoolFlag{Name: "json", Usage: "print JSON instead of the table"},
 			&cli.BoolFlag{Name: "quiet", Usage: "no progress line"},
+			&cli.BoolFlag{Name: "effect-choice", Value: true, Usage: "each world's decision runs propose's effectiveness choice, as propose does by default (--effect-choice=false: constant effectiveness as given)"},
 		),
 		Action: func(c *cli.Context) error {
 			o, err := newOpts(c)
@@ -105,7 +107,7 @@ func rehearseCommand() *cli.Command {
 			defer stop()
 			set := rehearsal.Settings{Seed: in.Seed, Worlds: o.Int("worlds"), Misspecified: o.Float("misspecified"), Kinds: ks,
 				BaseDraws: o.Int("base-draws"), WorldDraws: o.Int("world-draws"), Replicates: o.Int("world-replicates"), Workers: in.Workers,
-				Shard: shard}
+				Shard: shard, EffectChoice: o.Bool("effect-choice")}
 			start := time.Now()
 			if !o.Bool("quiet") {
 				set.Progress = func(done, total int) {
@@ -124,7 +126,7 @@ func rehearseCommand() *cli.Command {
 			}
 			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), WorldsTotal: set.Worlds,
 				Shard: shard.String(), Misspecified: set.Misspecified, Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw,
-				FailedShare: r.FailedShare, Errors: r.Errors, Decided: r.Decided, Failures: r.Failures, Checks: r.Checks}
+				FailedShare: r.FailedShare, Errors: r.Errors, Decided: r.Decided, Failures: r.Failures, Checks: r.Checks, Drifting: r.Drifting}
 			return emitRehearsal(c, o, out, r, time.Since(start))
 		},
 	}
@@ -228,7 +230,7 @@ func rehearseMergeCommand() *cli.Command {
 			out := first.rehearseOutput
 			out.Worlds, out.Shard = len(r.Worlds), "1/1"
 			out.Policies, out.Raw, out.FailedShare, out.Errors = r.Policies, r.Raw, r.FailedShare, r.Errors
-			out.Decided, out.Failures, out.Checks = r.Decided, r.Failures, r.Checks
+			out.Decided, out.Failures, out.Checks, out.Drifting = r.Decided, r.Failures, r.Checks, r.Drifting
 			return emitRehearsal(c, o, out, r, 0)
 		},
 	}
@@ -272,6 +274,9 @@ type rehearseOutput struct {
 	Decided      int                        `json:"worlds_decided"`
 	Failures     []rehearsal.Failure        `json:"failures"`
 	Checks       []rehearsal.CheckRate      `json:"checks"`
+	// Drifting counts, per world kind, the worlds whose decision let a
+	// channel drift by the effectiveness choice.
+	Drifting map[rehearsal.Kind]int `json:"effect_drifting,omitempty"`
 	// Warning is set when more than a tenth of the worlds failed.
 	Warning string `json:"warning,omitempty"`
 }
@@ -292,6 +297,16 @@ func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
 		r.Sizes.BaseDraws, r.Sizes.WorldDraws, r.Sizes.Replicates, took.Seconds()/float64(max(r.Worlds, 1)))
 	if len(r.Sizes.Shrunk) > 0 {
 		fmt.Fprintf(w, "smaller than propose's own decision: %s\n", strings.Join(r.Sizes.Shrunk, "; "))
+	}
+	if r.Sizes.EffectChoice {
+		var parts []string
+		for _, k := range slices.Sorted(maps.Keys(r.Drifting)) {
+			parts = append(parts, fmt.Sprintf("%s %d", k, r.Drifting[k]))
+		}
+		if len(parts) == 0 {
+			parts = []string{"none"}
+		}
+		fmt.Fprintf(w, "effectiveness choice (as propose runs it): worlds decided with a drifting channel, by kind: %s\n", strings.Join(parts, ", "))
 	}
 	if r.Errors > 0 && float64(r.Errors) > rehearsal.LoudShare*float64(r.Errors+r.Decided) {
 		fmt.Fprintf(w, "WARNING: %d of %d worlds could not be decided (see below)\n", r.Errors, r.Errors+r.Decided)
