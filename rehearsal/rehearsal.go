@@ -133,9 +133,17 @@ type Outcome struct {
 	Channel string `json:"channel,omitempty"`
 	Draw    int    `json:"draw"`
 	Seed    uint64 `json:"seed"` // of the world's decision (fit, bootstrap, validation, allocation)
-	// Drifting names the channels the effectiveness choice let drift in
+	// Drift is a drift world's β in the last week of history over its β
+	// at the start (what was drawn: ×1.5–2 or ×0.5–0.7); DriftRamp says
+	// whether it ramped over the whole history or its last third.
+	Drift     float64 `json:"drift,omitempty"`
+	DriftRamp string  `json:"drift_ramp,omitempty"`
+	// Drifting names the channels the effectiveness choice let vary in
 	// this world's decision (Settings.EffectChoice); empty: constant.
-	Drifting     []string `json:"drifting,omitempty"`
+	// EffectModel is the varying specification it chose (drifting or
+	// seasonal); "" when constant.
+	Drifting    []string `json:"drifting,omitempty"`
+	EffectModel string   `json:"effect_model,omitempty"`
 	Checks       int      `json:"checks"`
 	FailedChecks []string `json:"failed_checks"` // name/scope of each failed check
 	// Stated is, per tested check name, the false-alarm rate it was
@@ -151,10 +159,24 @@ type Outcome struct {
 	Oracle   Score    `json:"oracle"`   // the best plan under the truth, same constraints
 	Raw      Score    `json:"raw"`      // the allocator's proposal
 	Policies []Score  `json:"policies"` // each policy's approved plan, in Problem order
-	Err      string   `json:"error,omitempty"`
+	// Without is the same world decided without the effectiveness choice
+	// (the constant model; same seed, sizes and policies), scored under
+	// the same truth. It is set only when the choice used a varying
+	// specification: otherwise the two decisions are one and Raw and
+	// Policies are both.
+	Without *Alternative `json:"without_effect,omitempty"`
+	Err     string       `json:"error,omitempty"`
 	// Stage is where a world that could not be decided failed (input, fit,
 	// bootstrap, validation, allocation, oracle, gate); "" when decided.
 	Stage string `json:"failed_stage,omitempty"`
+}
+
+// Alternative is one world's other decision: its raw proposal and each
+// policy's approved plan, scored under the world's truth against the same
+// oracle.
+type Alternative struct {
+	Raw      Score   `json:"raw"`
+	Policies []Score `json:"policies"`
 }
 
 // Failure counts the worlds that failed at one stage, with their distinct
@@ -212,6 +234,44 @@ type Result struct {
 	// Drifting counts, per world kind, the decided worlds whose decision
 	// let some channel drift by the effectiveness choice.
 	Drifting map[Kind]int `json:"effect_drifting,omitempty"`
+	// Effect compares, per kind of world, the decisions with the
+	// effectiveness choice and without it (rehearsals run with the choice
+	// only): drift and season worlds, and every kind where the choice
+	// switched to a varying specification.
+	Effect []EffectComparison `json:"with_without_effect,omitempty"`
+	// DriftDrawn says what the drift worlds drew (decided or not).
+	DriftDrawn *DriftDrawn `json:"drift_drawn,omitempty"`
+}
+
+// EffectComparison is one kind of world decided with and without the
+// effectiveness choice. In a world where the choice kept the constant
+// model the two decisions are the same one and count on both sides.
+type EffectComparison struct {
+	Kind     Kind `json:"kind"`
+	Worlds   int  `json:"worlds"`   // decided worlds of the kind
+	Switched int  `json:"switched"` // of them, decided with a varying effectiveness
+	// Deciders are the raw proposal, then each policy in order.
+	Deciders []EffectPair `json:"deciders"`
+}
+
+// EffectPair is one way of deciding summed up over a kind's worlds with
+// the effectiveness choice (as propose runs) and without it (constant).
+type EffectPair struct {
+	Name    string  `json:"name"`
+	With    Summary `json:"with_effect"`
+	Without Summary `json:"without_effect"`
+}
+
+// DriftDrawn sums up the drift worlds' drawn sizes: how many rose and fell,
+// how many ramped over the last third only, and the range of the
+// end-over-start multipliers.
+type DriftDrawn struct {
+	Worlds    int     `json:"worlds"`
+	Rising    int     `json:"rising"`
+	Falling   int     `json:"falling"`
+	LastThird int     `json:"last_third"`
+	Min       float64 `json:"min"`
+	Max       float64 `json:"max"`
 }
 
 // CheckRate is how often one check (over all channels) failed. A check
@@ -319,7 +379,8 @@ func Run(ctx context.Context, p Problem, s Settings) (*Result, error) {
 			if st == "" {
 				st = "other"
 			}
-			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Err: err.Error(), Stage: st}
+			out = &Outcome{Index: i, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Drift: w.DriftEnd, DriftRamp: w.DriftRamp,
+				Err: err.Error(), Stage: st}
 		}
 		res.Worlds = append(res.Worlds, *out)
 		if s.Progress != nil {
@@ -361,6 +422,9 @@ func Merge(seed uint64, sizes Sizes, policies []string, worlds, shards int, part
 			if o.Err == "" && len(o.Policies) != len(policies) {
 				return nil, fmt.Errorf("rehearsal: world %d scores %d policies, not %d", o.Index, len(o.Policies), len(policies))
 			}
+			if o.Err == "" && o.Without != nil && len(o.Without.Policies) != len(policies) {
+				return nil, fmt.Errorf("rehearsal: world %d scores %d policies without the effectiveness choice, not %d", o.Index, len(o.Without.Policies), len(policies))
+			}
 			seen[o.Index] = true
 			res.Worlds = append(res.Worlds, o)
 		}
@@ -380,8 +444,15 @@ func Merge(seed uint64, sizes Sizes, policies []string, worlds, shards int, part
 	return res, nil
 }
 
+// StageWithout is the failed stage of a world decided with a varying
+// effectiveness whose decision without the choice (Outcome.Without) could
+// not run.
+const StageWithout = "without_effect"
+
 // decideWorld runs the decision pipeline (package decision, exactly what
-// propose runs) on w's panel and scores each plan under w's truth.
+// propose runs) on w's panel and scores each plan under w's truth. When
+// the effectiveness choice used a varying specification, it decides the
+// world once more without the choice and scores that too (Outcome.Without).
 func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome, error) {
 	dw, err := model.NewDesign(w.Panel, p.Design.Spec)
 	if err != nil {
@@ -400,15 +471,18 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 		}
 	}
 	in := decision.Input{Panel: w.Panel, Design: dw, Plan: p.Plan, Lifts: lifts}
-	prep, err := decision.Prepare(ctx, in, decision.Settings{Seed: w.Seed, Workers: s.Workers,
-		BootstrapDraws: s.WorldDraws, Replicates: s.Replicates, EffectChoice: s.EffectChoice})
+	set := decision.Settings{Seed: w.Seed, Workers: s.Workers,
+		BootstrapDraws: s.WorldDraws, Replicates: s.Replicates, EffectChoice: s.EffectChoice}
+	prep, err := decision.Prepare(ctx, in, set)
 	if err != nil {
 		return nil, err
 	}
 	val := prep.Validation
-	out := &Outcome{Index: w.Index, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Checks: len(val.Evidence.Checks)}
-	if ch := prep.EffectChoice; ch != nil && ch.Model == model.EffectDrifting {
-		out.Drifting = ch.Channels
+	out := &Outcome{Index: w.Index, Kind: w.Kind, Channel: w.Channel, Draw: w.Draw, Seed: w.Seed, Checks: len(val.Evidence.Checks),
+		Drift: w.DriftEnd, DriftRamp: w.DriftRamp}
+	varying := false
+	if ch := prep.EffectChoice; ch != nil && ch.Model != model.EffectConstant {
+		out.Drifting, out.EffectModel, varying = ch.Channels, ch.Model, true
 	}
 	for _, c := range val.Evidence.Checks {
 		if c.Status == validation.Fail {
@@ -451,8 +525,38 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 		return sc
 	}
 	out.Oracle = score(oracle.Proposed)
-	out.Raw = score(prep.Proposed)
-	for _, pol := range p.Policies {
+	alt, err := judgeAll(prep, p.Policies, score)
+	if err != nil {
+		return nil, err
+	}
+	out.Raw, out.Policies = alt.Raw, alt.Policies
+	if !varying {
+		// Without the choice the decision would be this one (the choice
+		// kept the constant model): its scores serve for both, no rerun.
+		return out, nil
+	}
+	// The choice switched: decide the world again with the constant model,
+	// everything else as it was (seed, sizes, lifts, policies), and score
+	// it under the same truth and oracle. This costs one more decision
+	// (bootstrap, validation, allocation, gates; not the evidence) in each
+	// switched world only.
+	set.EffectChoice = false
+	prep0, err := decision.Prepare(ctx, in, set)
+	if err != nil {
+		st := decision.StageOf(err)
+		return nil, &decision.Error{Stage: StageWithout, Err: fmt.Errorf("deciding without the effectiveness choice (%s): %w", st, err)}
+	}
+	if out.Without, err = judgeAll(prep0, p.Policies, score); err != nil {
+		return nil, &decision.Error{Stage: StageWithout, Err: fmt.Errorf("deciding without the effectiveness choice: %w", err)}
+	}
+	return out, nil
+}
+
+// judgeAll scores a prepared decision's raw proposal and each policy's
+// approved plan.
+func judgeAll(prep *decision.Prepared, pols []*policies.Policy, score func([]float64) Score) (*Alternative, error) {
+	alt := &Alternative{Raw: score(prep.Proposed)}
+	for _, pol := range pols {
 		dec, err := prep.Judge(pol, nil)
 		if err != nil {
 			return nil, fmt.Errorf("%s: %w", pol.Name, err)
@@ -465,9 +569,9 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 				sc.Acted = append(sc.Acted, cu.Name+"/"+cu.Scope)
 			}
 		}
-		out.Policies = append(out.Policies, sc)
+		alt.Policies = append(alt.Policies, sc)
 	}
-	return out, nil
+	return alt, nil
 }
 
 // worldLifts simulates the user's lift tests in world w: the same channels,
@@ -542,6 +646,11 @@ func (r *Result) summarize(policies []string) {
 		r.Policies[j].finish()
 	}
 	r.Checks = checkRates(r.Worlds)
+	r.Effect = nil
+	if r.Sizes.EffectChoice {
+		r.Effect = effectComparisons(r.Worlds, policies)
+	}
+	r.DriftDrawn = driftDrawn(r.Worlds)
 	r.FailedShare = map[Kind]float64{}
 	for k, c := range checks {
 		r.FailedShare[k] = c[0] / c[1]
@@ -685,4 +794,81 @@ func checkName(f string) string {
 		return f[:i]
 	}
 	return f
+}
+
+// effectComparisons sums up, per kind of world (drift, season and any kind
+// where the choice switched, in the kinds' order), each way of deciding
+// with and without the effectiveness choice, from the decided worlds.
+func effectComparisons(worlds []Outcome, policies []string) []EffectComparison {
+	type acc struct {
+		worlds, switched int
+		with, without    []Summary
+	}
+	m := map[Kind]*acc{}
+	for _, o := range worlds {
+		if o.Err != "" {
+			continue
+		}
+		a := m[o.Kind]
+		if a == nil {
+			a = &acc{with: make([]Summary, 1+len(policies)), without: make([]Summary, 1+len(policies))}
+			a.with[0].Name, a.without[0].Name = "raw", "raw"
+			for j, name := range policies {
+				a.with[j+1].Name, a.without[j+1].Name = name, name
+			}
+			m[o.Kind] = a
+		}
+		a.worlds++
+		other := &Alternative{Raw: o.Raw, Policies: o.Policies}
+		if o.Without != nil {
+			a.switched++
+			other = o.Without
+		}
+		og := o.Oracle.TrueGain
+		a.with[0].add("", o.Raw, og)
+		a.without[0].add("", other.Raw, og)
+		for j := range policies {
+			a.with[j+1].add("", o.Policies[j], og)
+			a.without[j+1].add("", other.Policies[j], og)
+		}
+	}
+	var out []EffectComparison
+	for _, k := range append([]Kind{WellSpecified}, AllKinds...) {
+		a := m[k]
+		if a == nil || (k != Drift && k != Season && a.switched == 0) {
+			continue
+		}
+		c := EffectComparison{Kind: k, Worlds: a.worlds, Switched: a.switched}
+		for j := range a.with {
+			a.with[j].finish()
+			a.without[j].finish()
+			c.Deciders = append(c.Deciders, EffectPair{Name: a.with[j].Name, With: a.with[j], Without: a.without[j]})
+		}
+		out = append(out, c)
+	}
+	return out
+}
+
+// driftDrawn sums up the drift worlds' drawn sizes; nil without any.
+func driftDrawn(worlds []Outcome) *DriftDrawn {
+	var d *DriftDrawn
+	for _, o := range worlds {
+		if o.Kind != Drift || o.Drift == 0 {
+			continue
+		}
+		if d == nil {
+			d = &DriftDrawn{Min: o.Drift, Max: o.Drift}
+		}
+		d.Worlds++
+		if o.Drift > 1 {
+			d.Rising++
+		} else {
+			d.Falling++
+		}
+		if o.DriftRamp == RampLate {
+			d.LastThird++
+		}
+		d.Min, d.Max = min(d.Min, o.Drift), max(d.Max, o.Drift)
+	}
+	return d
 }

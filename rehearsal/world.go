@@ -18,7 +18,7 @@ type Kind string
 // source) chosen to be large enough to matter for a quarter's plan.
 const (
 	WellSpecified Kind = "none"       // the model's own form, parameters from a bootstrap draw
-	Drift         Kind = "drift"      // β trends linearly to ±30% of its start by the last week
+	Drift         Kind = "drift"      // β ramps up 50–100% or down 30–50%, over the whole history or its last third
 	Season        Kind = "season"     // β varies ±40% over the year with a random phase
 	Carryover     Kind = "carryover"  // the channel's carryover is fast and slow at once: a kernel no geometric or delayed-peak adstock expresses
 	Shape         Kind = "shape"      // nothing responds below a threshold of adstock: a curve no Hill or exponential saturation expresses
@@ -29,8 +29,32 @@ const (
 // AllKinds lists the misspecified kinds in a fixed order.
 var AllKinds = []Kind{Drift, Season, Carryover, Shape, Confounder, Break}
 
+// A drift world draws its size and its ramp from its own stream: a rising
+// β ends ×1.5 to ×2 its start, a falling one ×0.5 to ×0.7 (the ranges of
+// issue 16's test panels, uniform within them), and in driftLateShare of
+// the worlds the ramp covers only the last third of the history (flat
+// before), the late change a constant fit averages away and the
+// effectiveness evidence is meant to see. Common practice, no source: the
+// sizes a marketer reports for creative wear-out or a channel maturing.
 const (
-	driftSize  = 0.30
+	driftRiseLo, driftRiseHi = 1.5, 2.0
+	driftFallLo, driftFallHi = 0.5, 0.7
+	driftLateShare           = 0.5
+)
+
+// Ramps of a drift world (Outcome.DriftRamp).
+const (
+	RampWhole = "whole_history"
+	RampLate  = "last_third"
+)
+
+const (
+	// seasonSize is the season world's amplitude: β swings ±40% of its
+	// mean over the year. The seasonal specification (model.EffectSeasonal,
+	// a periodic spline of the week of the year) can express this sine
+	// exactly up to its spline error, and ±40% over three years is large
+	// enough for the seasonal evidence to name in most worlds (measured in
+	// TestEffectOptionStudy's log); common practice, no source.
 	seasonSize = 0.40
 	// shapeThreshold is the shape world's threshold as a share of the
 	// channel's mean adstock over the history.
@@ -48,6 +72,14 @@ type World struct {
 	Channel string // the affected channel; "" for WellSpecified
 	Draw    int    // the base bootstrap draw its parameters come from
 	Seed    uint64 // seeds the decision process run on the world
+	// DriftEnd is a drift world's β in the last week of history over its
+	// β at the start (×1.5 to ×2 rising, ×0.5 to ×0.7 falling); 0 in
+	// other worlds. DriftFrom is the last week at the start's β: 0 for a
+	// ramp over the whole history, n − ⌈n/3⌉ − 1 for one over the last
+	// third; DriftRamp names the two.
+	DriftEnd  float64
+	DriftFrom int
+	DriftRamp string
 	// Truth is the drawn model parameters with the affected channel's β
 	// as the horizon meets it: the end-of-history β (after a drift or
 	// break), and for a season the channel's mean over the horizon's own
@@ -133,10 +165,18 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 	}
 	switch w.Kind {
 	case Drift:
-		for t := range mult {
-			mult[t] = 1 + sign*driftSize*float64(t)/float64(max(n-1, 1))
+		// Drawn only in drift worlds, after everything every world draws,
+		// so the other kinds' worlds are as before.
+		w.DriftEnd = driftFallLo + (driftFallHi-driftFallLo)*rng.Float64()
+		if sign > 0 {
+			w.DriftEnd = driftRiseLo + (driftRiseHi-driftRiseLo)*rng.Float64()
 		}
-		end = mult[n-1]
+		w.DriftRamp = RampWhole
+		if rng.Float64() < driftLateShare {
+			w.DriftRamp, w.DriftFrom = RampLate, max(n-(n+2)/3-1, 0)
+		}
+		mult = driftPath(n, w.DriftFrom, w.DriftEnd)
+		end = w.DriftEnd
 	case Season:
 		phase := 2 * math.Pi * rng.Float64()
 		at := func(t int) float64 { return 1 + seasonSize*math.Sin(2*math.Pi*float64(t)/d.Spec.Period+phase) }
@@ -215,6 +255,19 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 	panel.KPI = y
 	w.Panel = &panel
 	return w
+}
+
+// driftPath is a drift world's β multiplier per week of an n-week
+// history: 1 up to week from, then a straight line to end in week n − 1.
+func driftPath(n, from int, end float64) []float64 {
+	m := make([]float64, n)
+	for t := range m {
+		m[t] = 1
+		if t > from && n-1 > from {
+			m[t] = 1 + (end-1)*float64(t-from)/float64(n-1-from)
+		}
+	}
+	return m
 }
 
 // withBeta returns a copy of p with channel k's β set to beta.
