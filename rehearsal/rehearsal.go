@@ -142,8 +142,8 @@ type Outcome struct {
 	// this world's decision (Settings.EffectChoice); empty: constant.
 	// EffectModel is the varying specification it chose (drifting or
 	// seasonal); "" when constant.
-	Drifting    []string `json:"drifting,omitempty"`
-	EffectModel string   `json:"effect_model,omitempty"`
+	Drifting     []string `json:"drifting,omitempty"`
+	EffectModel  string   `json:"effect_model,omitempty"`
 	Checks       int      `json:"checks"`
 	FailedChecks []string `json:"failed_checks"` // name/scope of each failed check
 	// Stated is, per tested check name, the false-alarm rate it was
