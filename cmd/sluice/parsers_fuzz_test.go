@@ -65,8 +65,8 @@ func FuzzBriefData(f *testing.F) {
 // or merged without a panic.
 func FuzzRehearsalJSON(f *testing.F) {
 	f.Fuzz(func(t *testing.T, data []byte) {
-		var rf rehearseFile
-		if err := json.Unmarshal(data, &rf); err != nil {
+		rf, err := decodeRehearsalFile(data)
+		if err != nil {
 			return
 		}
 		if msg := sameRehearsal(rf.rehearseOutput, rf.rehearseOutput); msg != "" {

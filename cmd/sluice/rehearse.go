@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -126,7 +127,8 @@ func rehearseCommand() *cli.Command {
 			}
 			out := rehearseOutput{Tool: "sluice", Version: version, Seed: r.Seed, Worlds: len(r.Worlds), WorldsTotal: set.Worlds,
 				Shard: shard.String(), Misspecified: set.Misspecified, Kinds: ks, Sizes: r.Sizes, Policies: r.Policies, Raw: r.Raw,
-				FailedShare: r.FailedShare, Errors: r.Errors, Decided: r.Decided, Failures: r.Failures, Checks: r.Checks, Drifting: r.Drifting}
+				FailedShare: r.FailedShare, Errors: r.Errors, Decided: r.Decided, Failures: r.Failures, Checks: r.Checks, Drifting: r.Drifting,
+				Effect: r.Effect, DriftDrawn: r.DriftDrawn}
 			return emitRehearsal(c, o, out, r, time.Since(start))
 		},
 	}
@@ -203,9 +205,9 @@ func rehearseMergeCommand() *cli.Command {
 				if err != nil {
 					return err
 				}
-				var f rehearseFile
-				if err := json.Unmarshal(b, &f); err != nil {
-					return fmt.Errorf("%s: %v", path, err)
+				f, err := decodeRehearsalFile(b)
+				if err != nil {
+					return withHint(fmt.Errorf("%s: %v", path, err), "give the rehearsal.json that sluice rehearse --dir wrote, as it was written")
 				}
 				if first == nil {
 					first = &f
@@ -231,9 +233,25 @@ func rehearseMergeCommand() *cli.Command {
 			out.Worlds, out.Shard = len(r.Worlds), "1/1"
 			out.Policies, out.Raw, out.FailedShare, out.Errors = r.Policies, r.Raw, r.FailedShare, r.Errors
 			out.Decided, out.Failures, out.Checks, out.Drifting = r.Decided, r.Failures, r.Checks, r.Drifting
+			out.Effect, out.DriftDrawn = r.Effect, r.DriftDrawn
 			return emitRehearsal(c, o, out, r, 0)
 		},
 	}
+}
+
+// decodeRehearsalFile reads a rehearsal.json strictly: a field this
+// version does not write, or anything after the object, is an error.
+func decodeRehearsalFile(b []byte) (rehearseFile, error) {
+	var f rehearseFile
+	dec := json.NewDecoder(bytes.NewReader(b))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(&f); err != nil {
+		return rehearseFile{}, err
+	}
+	if dec.More() {
+		return rehearseFile{}, errors.New("data after the rehearsal's JSON object")
+	}
+	return f, nil
 }
 
 // sameRehearsal says how two shards' settings differ ("" when they match).
@@ -277,6 +295,11 @@ type rehearseOutput struct {
 	// Drifting counts, per world kind, the worlds whose decision let a
 	// channel drift by the effectiveness choice.
 	Drifting map[rehearsal.Kind]int `json:"effect_drifting,omitempty"`
+	// Effect compares, per kind of world, each way of deciding with and
+	// without the effectiveness choice (rehearsal.Result.Effect).
+	Effect []rehearsal.EffectComparison `json:"with_without_effect,omitempty"`
+	// DriftDrawn says what the drift worlds drew.
+	DriftDrawn *rehearsal.DriftDrawn `json:"drift_drawn,omitempty"`
 	// Warning is set when more than a tenth of the worlds failed.
 	Warning string `json:"warning,omitempty"`
 }
@@ -306,7 +329,11 @@ func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
 		if len(parts) == 0 {
 			parts = []string{"none"}
 		}
-		fmt.Fprintf(w, "effectiveness choice (as propose runs it): worlds decided with a drifting channel, by kind: %s\n", strings.Join(parts, ", "))
+		fmt.Fprintf(w, "effectiveness choice (as propose runs it): worlds decided with a varying effectiveness, by kind: %s\n", strings.Join(parts, ", "))
+	}
+	if d := r.DriftDrawn; d != nil {
+		fmt.Fprintf(w, "drift worlds drew: %d rising, %d falling (end of history over start ×%.2f to ×%.2f), %d of %d ramped over the last third only\n",
+			d.Rising, d.Falling, d.Min, d.Max, d.LastThird, d.Worlds)
 	}
 	if r.Errors > 0 && float64(r.Errors) > rehearsal.LoudShare*float64(r.Errors+r.Decided) {
 		fmt.Fprintf(w, "WARNING: %d of %d worlds could not be decided (see below)\n", r.Errors, r.Errors+r.Decided)
@@ -342,9 +369,34 @@ func printRehearsal(w io.Writer, r rehearseOutput, took time.Duration) {
 		fmt.Fprintln(tw)
 	}
 	tw.Flush()
+	printWithWithout(w, r)
 	printCheckRates(w, r)
 	printFailures(w, r)
 	fmt.Fprintln(w, "\nthe worlds are simulated from this model's family and a few named departures from it; a rehearsal shows how the policy behaves there, not in the real market")
+}
+
+// printWithWithout prints, per kind of world, each way of deciding with and
+// without the effectiveness choice.
+func printWithWithout(w io.Writer, r rehearseOutput) {
+	if len(r.Effect) == 0 {
+		return
+	}
+	fmt.Fprintln(w, "\nwith and without the effectiveness choice: P(loss) and share of oracle gain; where the choice kept the")
+	fmt.Fprintln(w, "constant model the world's decision is one and counts on both sides, where it switched the world was decided again without it")
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprint(tw, "kind\tworlds\tswitched\t")
+	for _, d := range r.Effect[0].Deciders {
+		fmt.Fprintf(tw, "%s with\t%s without\t", d.Name, d.Name)
+	}
+	fmt.Fprintln(tw)
+	for _, c := range r.Effect {
+		fmt.Fprintf(tw, "%s\t%d\t%d\t", c.Kind, c.Worlds, c.Switched)
+		for _, d := range c.Deciders {
+			fmt.Fprintf(tw, "%s\t%s\t", lossShare(&d.With), lossShare(&d.Without))
+		}
+		fmt.Fprintln(tw)
+	}
+	tw.Flush()
 }
 
 // printCheckRates prints each check's stated and realised false-alarm rate
