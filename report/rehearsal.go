@@ -72,6 +72,11 @@ type rehearsalView struct {
 	CheckKinds            []string // misspecified kinds with a power column
 	CheckRows             []checkRow
 	Loud                  string // a warning when more than a tenth of the worlds failed
+	// With and without the effectiveness choice, per kind of world
+	// (rehearsal.Result.Effect); empty when the rehearsal ran without it.
+	EffectDeciders []string
+	EffectRows     []kindRow // Failed holds the switched count
+	DriftDrawn     string
 }
 
 type summaryRow struct {
@@ -218,6 +223,25 @@ func newRehearsalView(r *rehearsal.Result) (*rehearsalView, error) {
 			row.Cells = append(row.Cells, pct(s.PLoss), pct(s.OracleShare))
 		}
 		v.Kinds = append(v.Kinds, row)
+	}
+	for i, c := range r.Effect {
+		row := kindRow{Kind: string(c.Kind), Worlds: strconv.Itoa(c.Worlds), Failed: strconv.Itoa(c.Switched)}
+		for j, d := range c.Deciders {
+			if i == 0 {
+				name := "policy " + d.Name
+				if j == 0 {
+					name = "raw proposal"
+				}
+				v.EffectDeciders = append(v.EffectDeciders, name)
+			}
+			row.Cells = append(row.Cells, pct(d.With.PLoss), pct(d.With.OracleShare), pct(d.Without.PLoss), pct(d.Without.OracleShare))
+		}
+		v.EffectRows = append(v.EffectRows, row)
+	}
+	if d := r.DriftDrawn; d != nil {
+		v.DriftDrawn = fmt.Sprintf("The drift worlds drew %d rising and %d falling changes of the affected channel's effectiveness, "+
+			"from ×%.2f to ×%.2f between the first and the last week of the history; %d of %d ramped over the last third of the history only.",
+			d.Rising, d.Falling, d.Min, d.Max, d.LastThird, d.Worlds)
 	}
 	for _, k := range rehearsal.AllKinds {
 		if slices.ContainsFunc(r.Checks, func(c rehearsal.CheckRate) bool { _, ok := c.Power[k]; return ok }) {

@@ -241,3 +241,36 @@ func TestRehearsalPageShowsCheckRates(t *testing.T) {
 		}
 	}
 }
+
+// TestRehearsalWithWithout: the page's with/without table shows each kind's
+// worlds, switched count and, per way of deciding, P(loss) and share of
+// the oracle's gain with and without the effectiveness choice, as set by
+// hand in the invented result; the drift worlds' drawn sizes are said.
+func TestRehearsalWithWithout(t *testing.T) {
+	r := testRehearsal()
+	sum := func(ploss, share float64) rehearsal.Summary { return rehearsal.Summary{Worlds: 1, PLoss: ploss, OracleShare: share} }
+	r.Effect = []rehearsal.EffectComparison{{Kind: rehearsal.Drift, Worlds: 1, Switched: 1, Deciders: []rehearsal.EffectPair{
+		{Name: "raw", With: sum(1, -0.4), Without: sum(0, 0.25)},
+		{Name: "standard", With: sum(1, -0.1), Without: sum(0, 0.5)},
+		{Name: "cautious <b>", With: sum(0, 0), Without: sum(0, 0.125)},
+	}}}
+	r.DriftDrawn = &rehearsal.DriftDrawn{Worlds: 1, Rising: 0, Falling: 1, LastThird: 1, Min: 0.55, Max: 0.55}
+	doc := parseHTML(t, renderRehearsal(t, r))
+	rows := byTag(byID(t, doc, "effect-table"), atom.Tr)
+	if len(rows) != 3 {
+		t.Fatalf("with/without table has %d rows, want 2 header rows + 1", len(rows))
+	}
+	var got []string
+	for c := rows[2].FirstChild; c != nil; c = c.NextSibling {
+		if c.Type == html.ElementNode {
+			got = append(got, text(c))
+		}
+	}
+	want := []string{"drift", "1", "1", "100%", "-40%", "0%", "25%", "100%", "-10%", "0%", "50%", "0%", "0%", "0%", "12.5%"}
+	if strings.Join(got, "|") != strings.Join(want, "|") {
+		t.Errorf("with/without row %q, want %q", got, want)
+	}
+	if p := text(byID(t, doc, "drift-drawn")); !strings.Contains(p, "0 rising and 1 falling") || !strings.Contains(p, "×0.55 to ×0.55") {
+		t.Errorf("drift drawn: %q", p)
+	}
+}
