@@ -248,7 +248,9 @@ func TestRehearsalPageShowsCheckRates(t *testing.T) {
 // hand in the invented result; the drift worlds' drawn sizes are said.
 func TestRehearsalWithWithout(t *testing.T) {
 	r := testRehearsal()
-	sum := func(ploss, share float64) rehearsal.Summary { return rehearsal.Summary{Worlds: 1, PLoss: ploss, OracleShare: share} }
+	sum := func(ploss, share float64) rehearsal.Summary {
+		return rehearsal.Summary{Worlds: 1, PLoss: ploss, OracleShare: share}
+	}
 	r.Effect = []rehearsal.EffectComparison{{Kind: rehearsal.Drift, Worlds: 1, Switched: 1, Deciders: []rehearsal.EffectPair{
 		{Name: "raw", With: sum(1, -0.4), Without: sum(0, 0.25)},
 		{Name: "standard", With: sum(1, -0.1), Without: sum(0, 0.5)},
