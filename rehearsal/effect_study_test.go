@@ -18,7 +18,7 @@ import (
 func effectTable(r *Result) string {
 	var b strings.Builder
 	for _, c := range r.Effect {
-		fmt.Fprintf(&b, "%-7s %2d worlds, choice switched in %2d:", c.Kind, c.Worlds, c.Switched)
+		fmt.Fprintf(&b, "%-7s %2d worlds, choice switched in %2d (%d on the affected channel):", c.Kind, c.Worlds, c.Switched, c.OnAffected)
 		for _, d := range c.Deciders {
 			fmt.Fprintf(&b, "  %s with %3.0f%% / %3.0f%%, without %3.0f%% / %3.0f%%;", d.Name,
 				100*d.With.OracleShare, 100*d.With.PLoss, 100*d.Without.OracleShare, 100*d.Without.PLoss)

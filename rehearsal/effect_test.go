@@ -42,12 +42,14 @@ func effectWorlds() []Outcome {
 	w0.Drift, w0.DriftRamp = 1.8, RampWhole
 	w1 := world(1, Drift, 200, 150, 100)
 	w1.Drift, w1.DriftRamp = 0.6, RampLate
+	w1.Channel = "search"
 	w1.Drifting, w1.EffectModel = []string{"search"}, "drifting"
 	w1.Without = &Alternative{Raw: sc(-20), Policies: []Score{sc(50)}}
 	w2 := Outcome{Index: 2, Kind: Drift, Drift: 1.5, DriftRamp: RampLate, Err: "fit: singular", Stage: "fit"}
 	w3 := world(3, Season, 100, 90, 0)
 	w3.Policies[0].Verdict = "refuse"
 	w4 := world(4, Break, 100, 50, 40)
+	w4.Channel = "search"
 	w4.Drifting, w4.EffectModel = []string{"tv"}, "drifting"
 	w4.Without = &Alternative{Raw: sc(60), Policies: []Score{sc(40)}}
 	w5 := world(5, Carryover, 100, 10, 10)
@@ -60,30 +62,32 @@ func effectWorlds() []Outcome {
 // 200), one switched; raw with (80+150)/300, without (80−20)/300 and one
 // loss of two; standard with (60+100)/300, without (60+50)/300. Season:
 // one world, not switched, the same on both sides. Break: listed because
-// the choice switched there; carryover and well-specified are not (no
+// the choice switched there (on tv, not the affected search: 0 on the
+// affected channel, where drift's switch was on search: 1); carryover and well-specified are not (no
 // switch). The failed drift world counts only among the drawn drifts.
 func TestEffectComparison(t *testing.T) {
 	r := &Result{Sizes: Sizes{EffectChoice: true}, Worlds: effectWorlds()}
 	r.summarize([]string{"standard"})
 	type row struct {
-		kind             Kind
-		worlds, switched int
+		kind                         Kind
+		worlds, switched, onAffected int
 		// raw with, raw without, standard with, standard without:
 		// share of the oracle's gain, then P(loss)
 		share, ploss [4]float64
 	}
 	want := []row{
-		{Drift, 2, 1, [4]float64{230.0 / 300, 60.0 / 300, 160.0 / 300, 110.0 / 300}, [4]float64{0, 0.5, 0, 0}},
-		{Season, 1, 0, [4]float64{0.9, 0.9, 0, 0}, [4]float64{0, 0, 0, 0}},
-		{Break, 1, 1, [4]float64{0.5, 0.6, 0.4, 0.4}, [4]float64{0, 0, 0, 0}},
+		{Drift, 2, 1, 1, [4]float64{230.0 / 300, 60.0 / 300, 160.0 / 300, 110.0 / 300}, [4]float64{0, 0.5, 0, 0}},
+		{Season, 1, 0, 0, [4]float64{0.9, 0.9, 0, 0}, [4]float64{0, 0, 0, 0}},
+		{Break, 1, 1, 0, [4]float64{0.5, 0.6, 0.4, 0.4}, [4]float64{0, 0, 0, 0}},
 	}
 	if len(r.Effect) != len(want) {
 		t.Fatalf("%d kinds compared, want %d: %+v", len(r.Effect), len(want), r.Effect)
 	}
 	for i, w := range want {
 		c := r.Effect[i]
-		if c.Kind != w.kind || c.Worlds != w.worlds || c.Switched != w.switched || len(c.Deciders) != 2 {
-			t.Fatalf("row %d: %s, %d worlds, %d switched, %d deciders; want %s, %d, %d, 2", i, c.Kind, c.Worlds, c.Switched, len(c.Deciders), w.kind, w.worlds, w.switched)
+		if c.Kind != w.kind || c.Worlds != w.worlds || c.Switched != w.switched || c.OnAffected != w.onAffected || len(c.Deciders) != 2 {
+			t.Fatalf("row %d: %s, %d worlds, %d switched (%d on the affected channel), %d deciders; want %s, %d, %d (%d), 2", i,
+				c.Kind, c.Worlds, c.Switched, c.OnAffected, len(c.Deciders), w.kind, w.worlds, w.switched, w.onAffected)
 		}
 		if c.Deciders[0].Name != "raw" || c.Deciders[1].Name != "standard" {
 			t.Errorf("%s: deciders %q, %q", c.Kind, c.Deciders[0].Name, c.Deciders[1].Name)

@@ -250,6 +250,10 @@ type EffectComparison struct {
 	Kind     Kind `json:"kind"`
 	Worlds   int  `json:"worlds"`   // decided worlds of the kind
 	Switched int  `json:"switched"` // of them, decided with a varying effectiveness
+	// OnAffected counts the switched worlds whose varying channels include
+	// the world's affected channel; the others varied only channels the
+	// world did not change (false alarms of the evidence).
+	OnAffected int `json:"switched_on_affected"`
 	// Deciders are the raw proposal, then each policy in order.
 	Deciders []EffectPair `json:"deciders"`
 }
@@ -801,8 +805,8 @@ func checkName(f string) string {
 // with and without the effectiveness choice, from the decided worlds.
 func effectComparisons(worlds []Outcome, policies []string) []EffectComparison {
 	type acc struct {
-		worlds, switched int
-		with, without    []Summary
+		worlds, switched, onAffected int
+		with, without                []Summary
 	}
 	m := map[Kind]*acc{}
 	for _, o := range worlds {
@@ -822,6 +826,9 @@ func effectComparisons(worlds []Outcome, policies []string) []EffectComparison {
 		other := &Alternative{Raw: o.Raw, Policies: o.Policies}
 		if o.Without != nil {
 			a.switched++
+			if o.Channel != "" && slices.Contains(o.Drifting, o.Channel) {
+				a.onAffected++
+			}
 			other = o.Without
 		}
 		og := o.Oracle.TrueGain
@@ -838,7 +845,7 @@ func effectComparisons(worlds []Outcome, policies []string) []EffectComparison {
 		if a == nil || (k != Drift && k != Season && a.switched == 0) {
 			continue
 		}
-		c := EffectComparison{Kind: k, Worlds: a.worlds, Switched: a.switched}
+		c := EffectComparison{Kind: k, Worlds: a.worlds, Switched: a.switched, OnAffected: a.onAffected}
 		for j := range a.with {
 			a.with[j].finish()
 			a.without[j].finish()

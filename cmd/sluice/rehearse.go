@@ -384,13 +384,13 @@ func printWithWithout(w io.Writer, r rehearseOutput) {
 	fmt.Fprintln(w, "\nwith and without the effectiveness choice: P(loss) and share of oracle gain; where the choice kept the")
 	fmt.Fprintln(w, "constant model the world's decision is one and counts on both sides, where it switched the world was decided again without it")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprint(tw, "kind\tworlds\tswitched\t")
+	fmt.Fprint(tw, "kind\tworlds\tswitched (on the affected channel)\t")
 	for _, d := range r.Effect[0].Deciders {
 		fmt.Fprintf(tw, "%s with\t%s without\t", d.Name, d.Name)
 	}
 	fmt.Fprintln(tw)
 	for _, c := range r.Effect {
-		fmt.Fprintf(tw, "%s\t%d\t%d\t", c.Kind, c.Worlds, c.Switched)
+		fmt.Fprintf(tw, "%s\t%d\t%d (%d)\t", c.Kind, c.Worlds, c.Switched, c.OnAffected)
 		for _, d := range c.Deciders {
 			fmt.Fprintf(tw, "%s\t%s\t", lossShare(&d.With), lossShare(&d.Without))
 		}
