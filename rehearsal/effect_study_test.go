@@ -41,7 +41,7 @@ func effectTable(r *Result) string {
 // true one (the mean of its β multiplier over the horizon's weeks, the
 // world's own formula), which is what seasonSize must give it to find.
 //
-// Measured (seed 16; 50 s in all on 2 cores shared with other work):
+// Measured (seed 16; 42–57 s in all on 2 cores shared with other work):
 //
 //	drift   24 worlds (15 rising, 9 falling; 13 over the last third only),
 //	        the choice switched in 5 (once naming only an unaffected channel);
@@ -67,7 +67,9 @@ func effectTable(r *Result) string {
 // season worlds (measured 3), which is what seasonSize must give it. The
 // season rows' with/without is logged, not asserted: where the choice
 // switched in no world the two sides are one decision, and asserting them
-// equal would pass vacuously.
+// equal would pass vacuously. The first switched drift world is also
+// decided on its own without the choice, which must give exactly the
+// scores kept as its decision without the choice.
 func TestEffectOptionStudy(t *testing.T) {
 	if testing.Short() {
 		t.Skip("a rehearsal of 32 worlds, each decided once or twice")
@@ -150,6 +152,32 @@ func TestEffectOptionStudy(t *testing.T) {
 	t.Logf("seasonal evidence named the affected channel in %d of %d season worlds with a true horizon effectiveness beyond ±10%%", named, s.Worlds)
 	if named < 2 {
 		t.Errorf("the seasonal evidence named the affected channel in %d of %d season worlds, want at least 2 (measured 3)", named, s.Worlds)
+	}
+
+	// A switched world's decision without the choice is exactly the world
+	// decided by a rehearsal run without the choice: same seed, sizes and
+	// policies, nothing else differs (first switched drift world).
+	for _, o := range drift.Worlds {
+		if o.Without == nil {
+			continue
+		}
+		s0 := settings(Drift, 24).withDefaults()
+		b0, err := newBase(ctx, p, s0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		s0.EffectChoice = false
+		alone, err := decideWorld(ctx, p, s0, b0.world(s0.Seed, o.Index, s0.Misspecified, s0.Kinds))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if alone.Without != nil || alone.Drifting != nil {
+			t.Errorf("world %d decided without the choice still varies %v", o.Index, alone.Drifting)
+		}
+		if fmt.Sprint(alone.Raw, alone.Policies) != fmt.Sprint(o.Without.Raw, o.Without.Policies) {
+			t.Errorf("world %d without the choice: %+v %+v, decided alone %+v %+v", o.Index, o.Without.Raw, o.Without.Policies, alone.Raw, alone.Policies)
+		}
+		break
 	}
 
 	var dc *EffectComparison

@@ -60,7 +60,9 @@ type Settings struct {
 	Shard uncertainty.Shard
 	// EffectChoice runs, in every world, propose's effectiveness choice
 	// (decision.Settings.EffectChoice), so the rehearsal rehearses what
-	// propose decides by default.
+	// propose decides by default. A world where the choice switched to a
+	// varying specification is decided once more without it
+	// (Outcome.Without), for Result.Effect.
 	EffectChoice bool
 	// Progress, if not nil, is told after each world.
 	Progress func(done, total int)
