@@ -23,3 +23,38 @@ func BenchmarkDecideWorld(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkDecideDriftWorld is the cost of a drift world whose
+// effectiveness choice switches (world 1 of seed 16 on the demo data: social
+// ×1.73 over the whole history; the choice lets social drift), at the
+// rehearsal's default sizes: "choice" decides it with the choice and again
+// without it (the with/without comparison), "constant" only without it.
+func BenchmarkDecideDriftWorld(b *testing.B) {
+	p := demoProblem(b, "standard")
+	ctx := context.Background()
+	s := Settings{Seed: 16, Misspecified: 1, Kinds: []Kind{Drift}, BaseDraws: 20, Workers: 2}.withDefaults()
+	base, err := newBase(ctx, p, s)
+	if err != nil {
+		b.Fatal(err)
+	}
+	w := base.world(s.Seed, 1, s.Misspecified, s.Kinds)
+	for _, choice := range []bool{true, false} {
+		name := "constant"
+		if choice {
+			name = "choice"
+		}
+		b.Run(name, func(b *testing.B) {
+			s := s
+			s.EffectChoice = choice
+			for b.Loop() {
+				o, err := decideWorld(ctx, p, s, w)
+				if err != nil {
+					b.Fatal(err)
+				}
+				if choice && o.Without == nil {
+					b.Fatal("the choice did not switch in this world")
+				}
+			}
+		})
+	}
+}
