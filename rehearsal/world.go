@@ -3,6 +3,7 @@ package rehearsal
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 
 	"gonum.org/v1/gonum/stat"
 
@@ -14,7 +15,8 @@ import (
 type Kind string
 
 // The kinds of world. Each misspecified kind affects one channel (and the
-// break also the base); the sizes are rules of thumb (common practice, no
+// break also the base); a drift or season world affects a channel that
+// matters (liveShare). The sizes are rules of thumb (common practice, no
 // source) chosen to be large enough to matter for a quarter's plan.
 const (
 	WellSpecified Kind = "none"       // the model's own form, parameters from a bootstrap draw
@@ -150,6 +152,21 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 	if rng.IntN(2) == 0 {
 		sign = -1
 	}
+	chans := make([]trueChannel, nk)
+	for j := range chans {
+		chans[j] = newTrueChannel(d, j, p.Channels[j])
+	}
+	if w.Kind == Drift || w.Kind == Season {
+		// Scaling the β of a channel the drawn truth gives (almost) no
+		// effect changes nothing: such a world would count as a drift or
+		// season world with no drift or season in it. The affected channel
+		// is redrawn among those that matter (drawn after everything every
+		// world draws, and only here, so other worlds are as before).
+		if live := liveChannels(chans, d.Spend); len(live) > 0 && !slices.Contains(live, k) {
+			k = live[rng.IntN(len(live))]
+			w.Channel = d.Spec.Channels[k].Name
+		}
+	}
 
 	// mult[t] scales channel k's β in week t; end is its value for the horizon.
 	mult := make([]float64, n)
@@ -159,10 +176,6 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 	end := 1.0
 	extra := make([]float64, n) // added to the KPI, not caused by spend
 	cp := &p.Channels[k]
-	chans := make([]trueChannel, nk)
-	for j := range chans {
-		chans[j] = newTrueChannel(d, j, p.Channels[j])
-	}
 	switch w.Kind {
 	case Drift:
 		// Drawn only in drift worlds, after everything every world draws,
@@ -255,6 +268,32 @@ func (b *base) world(seed uint64, i int, misspecified float64, kinds []Kind) *Wo
 	panel.KPI = y
 	w.Panel = &panel
 	return w
+}
+
+// liveShare is the smallest mean contribution, as a share of the largest
+// channel's, of a channel a drift or season world may affect (common
+// practice, no source: a channel below a tenth of the largest one's effect
+// barely moves the KPI whatever its β does).
+const liveShare = 0.1
+
+// liveChannels are the channels whose mean contribution over the history,
+// β · mean sat(adstock(spend)) by the world's own response code, is at
+// least liveShare of the largest channel's.
+func liveChannels(chans []trueChannel, spend [][]float64) []int {
+	contrib := make([]float64, len(chans))
+	var top float64
+	for j, c := range chans {
+		m, _ := meanSD(c.media(spend[j]))
+		contrib[j] = c.beta * m
+		top = max(top, contrib[j])
+	}
+	var live []int
+	for j, v := range contrib {
+		if top > 0 && v >= liveShare*top {
+			live = append(live, j)
+		}
+	}
+	return live
 }
 
 // driftPath is a drift world's β multiplier per week of an n-week

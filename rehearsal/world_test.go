@@ -299,3 +299,46 @@ func TestTrueResponseMatchesTheModelsCurves(t *testing.T) {
 		}
 	}
 }
+
+// TestDriftAndSeasonAffectAChannelThatMatters: a drift or season world
+// scales the β of a channel whose mean contribution over the history is at
+// least a tenth of the largest channel's, computed here with the model's
+// own transforms (model.Design.Media, separate from the world's response
+// code). On the demo's point fit some channel is below that (else the
+// check would pass vacuously), and 60 worlds of each kind never pick it.
+func TestDriftAndSeasonAffectAChannelThatMatters(t *testing.T) {
+	b := noiselessBase(t)
+	d, p := b.design, b.draws[0]
+	contrib := make([]float64, len(p.Channels))
+	var top float64
+	for k, cp := range p.Channels {
+		var m float64
+		for _, v := range d.Media(make([]float64, d.N), k, cp) {
+			m += v / float64(d.N)
+		}
+		contrib[k] = cp.Beta * m
+		top = max(top, contrib[k])
+	}
+	var small []string
+	for k, v := range contrib {
+		if v < 0.1*top {
+			small = append(small, d.Spec.Channels[k].Name)
+		}
+	}
+	t.Logf("mean contributions %.0f; below a tenth of the largest: %v", contrib, small)
+	if len(small) == 0 {
+		t.Fatal("no channel of the demo's fit is below a tenth of the largest: the check would be vacuous")
+	}
+	for _, kind := range []Kind{Drift, Season} {
+		seen := map[string]int{}
+		for i := range 60 {
+			w := b.world(11, i, 1, []Kind{kind})
+			k := slices.Index(d.Spec.ChannelNames(), w.Channel)
+			seen[w.Channel]++
+			if contrib[k] < 0.1*top {
+				t.Errorf("%s world %d affects %s, whose contribution %.0f is below a tenth of the largest %.0f", kind, i, w.Channel, contrib[k], top)
+			}
+		}
+		t.Logf("%s worlds by affected channel: %v", kind, seen)
+	}
+}
