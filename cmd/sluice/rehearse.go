@@ -293,7 +293,8 @@ type rehearseOutput struct {
 	Failures     []rehearsal.Failure        `json:"failures"`
 	Checks       []rehearsal.CheckRate      `json:"checks"`
 	// Drifting counts, per world kind, the worlds whose decision let a
-	// channel drift by the effectiveness choice.
+	// channel's effectiveness vary (drifting or seasonal) by the
+	// effectiveness choice.
 	Drifting map[rehearsal.Kind]int `json:"effect_drifting,omitempty"`
 	// Effect compares, per kind of world, each way of deciding with and
 	// without the effectiveness choice (rehearsal.Result.Effect).
