@@ -1,6 +1,7 @@
 package validation
 
 import (
+	"math"
 	"strings"
 	"testing"
 
@@ -45,24 +46,36 @@ func runEffect(t *testing.T, tr *model.Truth, reps int) (*model.Simulated, *Effe
 // rises 80%, social's falls 40% over three years; no-drift worlds: the
 // same with every channel constant. The true end-over-average change of a
 // linear path is (1+δ)/(1+δ/2) (closed form of the simulator's truth).
-// Goals (stated here, measured below): the rising channel named in at
-// least 5 of 6 drift worlds, every named channel in the right direction
-// (the falling channel's power is only reported: measured 0 of 6 at
-// Alpha 0.10, its z between −0.9 and −2.1 against 2.24 — a 40% fall of a
-// smaller channel is hard to tell from noise in three years); in no-drift worlds, the share of channel-worlds
-// named at most 10% (the family-wise Alpha spread over 4 channels gives
-// 2.5% per channel if the bootstrap SD were exact; the allowance covers
-// 40 replicates' noise in the SD), and the drifting specification
-// preferred in at most 20% of worlds.
+// The test is calibrated by panels simulated from each world's own
+// constant fit, so its stated false-alarm share per channel is Alpha/K =
+// 2.5% (family-wise 10% over 4 channels).
+//
+// Measured (60 bootstrap refits, 60 simulated panels per world): rising
+// named in 12 of 12 worlds, falling in 5 of 12 (z −3.1 to +0.3 against
+// 2.31; before the calibration by simulated panels, when z was the change
+// over its own bootstrap SD, the falling channel was named in 0 of 6: a
+// fallen channel's small end value has a wide log-scale spread that the
+// test no longer divides by); no-drift worlds 3 of 120 channel-worlds
+// named (2.5%), drifting preferred in 1 of 30 worlds.
+//
+// Goals: the rising channel named in at least 11 of 12 drift worlds, the
+// falling one in at least 4 of 12, every named channel in the right
+// direction; in no-drift worlds at most 5% of channel-worlds named (twice
+// the stated 2.5%: 120 channel-worlds measure a 2.5% rate to about ±1.4
+// points, binomial SD) and the drifting specification preferred in at
+// most 10% of worlds (family-wise 10%, and the backtest must agree too).
+//
+// Rerun: go test ./validation -run EffectivenessPowerAndFalseAlarms -v
+// (about 20 s on 2 cores).
 func TestEffectivenessPowerAndFalseAlarms(t *testing.T) {
-	nDrift, nFlat := 6, 12
+	nDrift, nFlat := 12, 30
 	if testing.Short() {
 		nDrift, nFlat = 2, 2
 	}
 	named := [2]int{}
 	for i := range nDrift {
 		seed := uint64(100 + i)
-		_, r := runEffect(t, effectWorld(seed, 0.8, 0.4, 0.01), 40)
+		_, r := runEffect(t, effectWorld(seed, 0.8, 0.4, 0.01), 60)
 		for k, delta := range []float64{0.8, -0.4} {
 			c := r.Channels[k]
 			want := (1 + delta) / (1 + delta/2)
@@ -78,8 +91,8 @@ func TestEffectivenessPowerAndFalseAlarms(t *testing.T) {
 	}
 	t.Logf("named: rising %d of %d worlds, falling %d of %d", named[0], nDrift, named[1], nDrift)
 	if !testing.Short() {
-		if named[0] < 5 {
-			t.Errorf("power: rising named in %d of %d worlds (goal >= 5)", named[0], nDrift)
+		if named[0] < 11 || named[1] < 4 {
+			t.Errorf("power: rising named in %d of %d worlds (goal >= 11), falling in %d (goal >= 4)", named[0], nDrift, named[1])
 		}
 	} else if named[0] < 1 {
 		t.Errorf("the rising channel was not named in either short world")
@@ -87,7 +100,7 @@ func TestEffectivenessPowerAndFalseAlarms(t *testing.T) {
 	var alarms, prefer int
 	for i := range nFlat {
 		seed := uint64(200 + i)
-		_, r := runEffect(t, effectWorld(seed, 0, 0, 0.01), 40)
+		_, r := runEffect(t, effectWorld(seed, 0, 0, 0.01), 60)
 		for _, c := range r.Channels {
 			if c.Changed {
 				alarms++
@@ -100,8 +113,8 @@ func TestEffectivenessPowerAndFalseAlarms(t *testing.T) {
 	}
 	share := float64(alarms) / float64(4*nFlat)
 	t.Logf("no-drift worlds: %d of %d channel-worlds named (%.1f%%), drifting preferred in %d of %d worlds", alarms, 4*nFlat, 100*share, prefer, nFlat)
-	if !testing.Short() && (share > 0.10 || float64(prefer) > 0.2*float64(nFlat)) {
-		t.Errorf("false alarms: %.1f%% of channel-worlds (goal <= 10%%), drifting preferred in %d of %d worlds (goal <= 20%%)", 100*share, prefer, nFlat)
+	if !testing.Short() && (share > 0.05 || float64(prefer) > 0.1*float64(nFlat)) {
+		t.Errorf("false alarms: %.1f%% of channel-worlds (goal <= 5%%), drifting preferred in %d of %d worlds (goal <= 10%%)", 100*share, prefer, nFlat)
 	}
 }
 
@@ -205,5 +218,31 @@ func TestEffectivenessTooShort(t *testing.T) {
 	}
 	if len(r.Channels) != 0 || r.Prefer != model.EffectConstant || len(r.Notes) != 1 || !strings.Contains(r.Notes[0], "needs at least") {
 		t.Errorf("short history: channels %d, prefer %s, notes %q", len(r.Channels), r.Prefer, r.Notes)
+	}
+}
+
+// recentChange against hand sums: a path rising linearly 1, 2, ..., 12
+// has mean 6.5 and its last 3 weeks mean 11, so 11/6.5; a flat path gives
+// 1; a path with a zero mean gives the neutral 1.
+func TestRecentChange(t *testing.T) {
+	lin := make([]float64, 12)
+	for i := range lin {
+		lin[i] = float64(i + 1)
+	}
+	for _, tc := range []struct {
+		name string
+		path []float64
+		w    int
+		want float64
+	}{
+		{"linear", lin, 3, 11 / 6.5},
+		{"whole path", lin, 12, 1},
+		{"flat", []float64{4, 4, 4, 4}, 2, 1},
+		{"late step", []float64{1, 1, 1, 1, 1, 1, 2, 2}, 2, 2 / 1.25},
+		{"zero", []float64{0, 0, 0}, 1, 1},
+	} {
+		if got := recentChange(tc.path, tc.w); math.Abs(got-tc.want) > 1e-12 {
+			t.Errorf("%s: %g, want %g", tc.name, got, tc.want)
+		}
 	}
 }
