@@ -284,7 +284,7 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 	for k, c := range d.Spec.Channels {
 		ec := EffectChannel{Kind: set.Kind, Horizon: d.Spec.Horizon, Name: c.Name, Change: change(fit.Params, k),
 			Recent: stat(fit.Params, k), Path: dd.EffectPath(fit.Params, k)}
-		ec.Low, ec.High = quantileOf(changes[k], 0.05), quantileOf(changes[k], 0.95)
+		ec.Low, ec.High = changeInterval(ec.Change, changes[k])
 		if m, sd := meanOf(nulls[k]), sdOf(nulls[k]); sd > 0 {
 			ec.Z = (math.Log(math.Max(ec.Recent, 1e-9)) - m) / sd
 		}
@@ -295,7 +295,7 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 			for i := range paths[k] {
 				col[i] = paths[k][i][t]
 			}
-			ec.PathLow[t], ec.PathHigh[t] = quantileOf(col, 0.05), quantileOf(col, 0.95)
+			ec.PathLow[t], ec.PathHigh[t] = changeInterval(ec.Path[t], col)
 		}
 		if ec.Low < 0.05 {
 			res.Notes = append(res.Notes, fmt.Sprintf("%s: the %s fit cannot settle its effectiveness (the 90%% interval reaches zero)", c.Name, set.Kind))
@@ -442,6 +442,31 @@ func (r *EffectResult) checkName(drifting, seasonal string) string {
 	return drifting
 }
 
+// changeInterval is the 90% interval of a change θ̂ of effectiveness from
+// its bootstrap replicates θ*: the span of the percentile interval [q05,
+// q95] and the basic (reverse percentile) interval [2θ̂ − q95, 2θ̂ − q05]
+// (Davison & Hinkley 1997, Bootstrap Methods and their Application, §5.2),
+// floored at zero. The step prior shrinks a varying coefficient towards
+// flat and refits of data made from the shrunk fit shrink it again, so the
+// replicates sit on the flat side of the estimate. Where the truth did
+// change, the estimate is itself shrunk and the basic interval, which
+// reads the refits' shrinkage as the distance the truth lies beyond the
+// estimate, covers it while the percentile interval does not; where
+// nothing changed, the same shrinkage makes the basic interval step away
+// from flat and the percentile interval is the one that covers. The
+// bootstrap cannot tell the two apart, so the interval spans both.
+// Measured coverage of the true change, 90% nominal, over the 156
+// channel-worlds of validation/effectiveness_test.go (rising, falling,
+// late, seasonal and unchanged channels): percentile alone 86%, basic
+// alone 80%, the span of both 92% (unchanged channels 94%, changed ones
+// 86%). Bias-corrected percentile intervals (Efron 1981) were tried and
+// covered less than either with 60 replicates.
+func changeInterval(est float64, reps []float64) (lo, hi float64) {
+	q := sample.Quantiles(reps, 0.05, 0.95)
+	lo, hi = math.Min(q[0], 2*est-q[1]), math.Max(q[1], 2*est-q[0])
+	return math.Max(0, lo), hi
+}
+
 // effectNullStream offsets the streams of the panels simulated without a
 // change of effectiveness from those of the other simulated panels.
 const effectNullStream = 3 << 20
@@ -472,7 +497,3 @@ func sdOf(x []float64) float64 {
 	return math.Sqrt(s / float64(len(x)-1))
 }
 
-// quantileOf is the project's sample quantile (Hyndman–Fan type 8).
-func quantileOf(x []float64, q float64) float64 {
-	return sample.Quantiles(x, q)[0]
-}
