@@ -496,4 +496,3 @@ func sdOf(x []float64) float64 {
 	}
 	return math.Sqrt(s / float64(len(x)-1))
 }
-
