@@ -209,11 +209,12 @@ func Prepare(ctx context.Context, in Input, s Settings) (*Prepared, error) {
 	// says so.
 	var choice *record.EffectChoice
 	var effect *validation.EffectResult
+	var effectChecks []validation.Check
 	if s.EffectChoice || d.Spec.AnyDrifting() {
 		if s.Progress != nil {
 			s.Progress("effectiveness", 0, 1)
 		}
-		if d, choice, effect, err = chooseEffect(d, y, s, in.Draws != nil); err != nil {
+		if d, choice, effect, effectChecks, err = chooseEffect(d, y, s, in.Draws != nil); err != nil {
 			return nil, fail(StageValidation, fmt.Errorf("effectiveness evidence: %w", err))
 		}
 		in.Design = d
@@ -257,6 +258,10 @@ func Prepare(ctx context.Context, in Input, s Settings) (*Prepared, error) {
 	if err != nil {
 		return nil, fail(StageValidation, err)
 	}
+	// A channel the effectiveness evidence names as changed but the
+	// decision keeps constant is for the policy to act on
+	// (effect/modelled, family effectiveness).
+	val.Evidence.Checks = append(val.Evidence.Checks, effectChecks...)
 
 	// Proposal: the allocator's on its half of the draws, or a person's.
 	h := plan.HorizonWeeks

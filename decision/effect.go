@@ -17,8 +17,10 @@ import (
 // or seasonal. When draws are given (fixed is true) the design is the
 // draws' and is kept; a note says what the evidence preferred. A design
 // that already has varying channels (the user's spec or flags) is kept as
-// it is, without the evidence.
-func chooseEffect(d *model.Design, y []float64, s Settings, fixed bool) (*model.Design, *record.EffectChoice, *validation.EffectResult, error) {
+// it is, without the evidence. The checks are the decision's
+// effect/modelled checks on the returned design (validation.ModelledChecks;
+// none when the evidence did not run).
+func chooseEffect(d *model.Design, y []float64, s Settings, fixed bool) (*model.Design, *record.EffectChoice, *validation.EffectResult, []validation.Check, error) {
 	if d.Spec.AnyDrifting() {
 		ch := &record.EffectChoice{Model: model.EffectDrifting, Evidence: "set by the model specification (spec file or --drifting/--seasonal); the evidence was not run"}
 		for _, c := range d.Spec.Channels {
@@ -29,11 +31,11 @@ func chooseEffect(d *model.Design, y []float64, s Settings, fixed bool) (*model.
 				}
 			}
 		}
-		return d, ch, nil, nil
+		return d, ch, nil, nil, nil
 	}
 	evs, err := validation.EffectEvidence(d, y, validation.EffectSettings{Seed: s.Seed, Workers: s.Workers, Replicates: s.EffectReplicates})
 	if err != nil {
-		return nil, nil, nil, err
+		return nil, nil, nil, nil, err
 	}
 	ch := &record.EffectChoice{Model: model.EffectConstant, Preferred: model.EffectConstant}
 	var whys []string
@@ -61,7 +63,7 @@ func chooseEffect(d *model.Design, y []float64, s Settings, fixed bool) (*model.
 		} else {
 			ch.Evidence = "changes named in " + strings.Join(named, ", ") + " but the varying specification does not forecast the last weeks better: " + why
 		}
-		return d, ch, ev, nil
+		return d, ch, ev, validation.ModelledChecks(evs, d), nil
 	}
 	named := ev.Named()
 	ch.Preferred, ch.BacktestRatio = ev.Kind, ev.BacktestRatio
@@ -69,7 +71,7 @@ func chooseEffect(d *model.Design, y []float64, s Settings, fixed bool) (*model.
 		ch.Evidence = "the draws file fixes the specification: " + why
 		ch.Note = fmt.Sprintf("the evidence prefers a %s effectiveness for %s, but the given draws are of the constant model and were used as they are",
 			ev.Kind, strings.Join(named, ", "))
-		return d, ch, ev, nil
+		return d, ch, ev, validation.ModelledChecks(evs, d), nil
 	}
 	var dv *model.Design
 	if ev.Kind == model.EffectSeasonal {
@@ -78,12 +80,12 @@ func chooseEffect(d *model.Design, y []float64, s Settings, fixed bool) (*model.
 		dv, err = d.WithDrifting(named)
 	}
 	if err != nil {
-		return nil, nil, nil, err
+		return nil, nil, nil, nil, err
 	}
 	ch.Model, ch.Channels = ev.Kind, named
 	ch.Evidence = fmt.Sprintf("effectiveness %s in %s and that specification forecasts the last weeks at least as well as the constant one: %s",
 		verbOf(ev.Kind), strings.Join(named, ", "), why)
-	return dv, ch, ev, nil
+	return dv, ch, ev, validation.ModelledChecks(evs, dv), nil
 }
 
 // effectWhy is one kind's evidence in a line: refits, test, backtest.

@@ -7,6 +7,9 @@ import (
 
 	"sluice/model"
 	"sluice/optimize"
+	"sluice/policies"
+	"sluice/uncertainty"
+	"sluice/validation"
 )
 
 // effectWorld simulates a 156-week panel with two channels; search's
@@ -97,6 +100,59 @@ func TestEffectChoice(t *testing.T) {
 			q := run()
 			if q.EffectChoice.Evidence != ch.Evidence || q.Proposed[0] != p.Proposed[0] {
 				t.Errorf("same seed, different outcome: %q / %q, %g / %g", ch.Evidence, q.EffectChoice.Evidence, p.Proposed[0], q.Proposed[0])
+			}
+		})
+	}
+}
+
+// TestEffectModelledCheck: when the evidence names search's change but the
+// decision keeps the constant model (a draws file of the constant model
+// fixes it), the effect/modelled check fails on search and the standard
+// policy (effectiveness: {on_fail: hold}) keeps search at its current
+// spend; social, not named, passes. With the choice free, search drifts
+// and the check passes. Truth: search's effectiveness doubles over the
+// history (effectWorld, the simulator's drift).
+func TestEffectModelledCheck(t *testing.T) {
+	panel, d, plan := effectWorld(t, 1.0)
+	b := &uncertainty.Bootstrap{Design: d, Y: panel.KPI, Method: uncertainty.MovingBlock, Draws: 20, Seed: 7, Workers: 2}
+	dr, err := b.Run(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
+	std, err := policies.Preset("standard")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range []struct {
+		name   string
+		draws  *uncertainty.Draws
+		search validation.Status
+	}{
+		{"draws fix the constant model", dr, validation.Fail},
+		{"choice free", nil, validation.Pass},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			p, err := Prepare(context.Background(), Input{Panel: panel, Design: d, Plan: plan, Draws: tc.draws},
+				Settings{Seed: 7, Workers: 2, BootstrapDraws: 20, Replicates: 4, EffectChoice: true})
+			if err != nil {
+				t.Fatal(err)
+			}
+			got := map[string]validation.Status{}
+			for _, c := range p.Validation.Evidence.Checks {
+				if c.Name == "effect/modelled" {
+					got[c.Scope] = c.Status
+				}
+			}
+			if got["search"] != tc.search || got["social"] != validation.Pass {
+				t.Fatalf("effect/modelled: %v, want search %s and social pass", got, tc.search)
+			}
+			out, err := p.Judge(std, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			held := out.Gate.ApprovedPlan[0] == p.Current[0]
+			if held != (tc.search == validation.Fail) {
+				t.Errorf("search approved %.0f against current %.0f: held %v, want %v", out.Gate.ApprovedPlan[0], p.Current[0], held, tc.search == validation.Fail)
 			}
 		})
 	}

@@ -2,6 +2,7 @@ package validation
 
 import (
 	"fmt"
+	"strings"
 	"math"
 	"math/rand/v2"
 
@@ -343,6 +344,48 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 		}
 	}
 	return res, nil
+}
+
+// EffectFamily is the family of the decision's check that a channel
+// whose effectiveness the evidence names as changed is decided with a
+// model that lets it vary (ModelledChecks).
+const EffectFamily Family = "effectiveness"
+
+// ModelledChecks are a decision's effectiveness checks, one per channel of
+// d ("effect/modelled", family EffectFamily): a channel fails when some
+// kind of evidence in rs names its effectiveness as changed and d, the
+// design the decision used, keeps it constant — the decision then reads
+// the history's average where the evidence says it no longer holds
+// (because the varying specification did not forecast the last weeks
+// better, or a draws file fixed the constant one). It passes when no
+// evidence names it, or when d lets it vary. The naming is the evidence's
+// own test (family-wise Alpha), so the check carries no p-value of its
+// own for the policy to re-grade.
+func ModelledChecks(rs []*EffectResult, d *model.Design) []Check {
+	var out []Check
+	for k, c := range d.Spec.Channels {
+		var named []string
+		var z float64
+		for _, r := range rs {
+			for _, ec := range r.Channels {
+				if ec.Name == c.Name && ec.Changed {
+					named = append(named, r.Kind+": "+ec.Words())
+					z = max(z, math.Abs(ec.Z))
+				}
+			}
+		}
+		switch {
+		case len(named) == 0:
+			out = append(out, check("effect/modelled", EffectFamily, c.Name, Pass, 0, 0, "effectiveness not named as changed"))
+		case d.Spec.Channels[k].Varying():
+			out = append(out, check("effect/modelled", EffectFamily, c.Name, Pass, z, 0, "named as changed (%s) and decided with a %s effectiveness",
+				strings.Join(named, "; "), d.Spec.Channels[k].Effectiveness))
+		default:
+			out = append(out, check("effect/modelled", EffectFamily, c.Name, Fail, z, 0, "named as changed (%s) but decided with a constant effectiveness, the history's average",
+				strings.Join(named, "; ")))
+		}
+	}
+	return out
 }
 
 // EffectKinds are the varying specifications the evidence tests, in the
