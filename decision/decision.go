@@ -67,11 +67,11 @@ type Settings struct {
 	BootstrapDraws int
 	// Replicates is the recovery check's panel count; 0 means DefaultReplicates.
 	Replicates int
-	// EffectChoice runs the effectiveness evidence (drifting kind) on the
-	// design before the bootstrap and, when it prefers a drifting
-	// effectiveness, decides on a design where the changed channels drift,
-	// so the draws, the allocation and the gate use the end-of-history
-	// effectiveness. With Input.Draws given the draws' specification is
+	// EffectChoice runs the effectiveness evidence (drifting and seasonal
+	// kinds) on the design before the bootstrap and, when it prefers a
+	// varying effectiveness, decides on a design where the changed channels
+	// drift (or follow the season), so the draws, the allocation and the
+	// gate use the end-of-history (or the coming season's) effectiveness. With Input.Draws given the draws' specification is
 	// kept and the record notes what the evidence preferred.
 	EffectChoice bool
 	// EffectReplicates is the evidence's bootstrap size; 0 means
@@ -115,10 +115,12 @@ type Outcome struct {
 	Economics         optimize.Economics
 	Gains             []float64 // of the approved plan, per judging draw
 	// Design is the model design the decision used: Input.Design, or its
-	// drifting version when the effectiveness choice switched to it.
+	// drifting or seasonal version when the effectiveness choice switched
+	// to it.
 	Design *model.Design
-	// Effect is the effectiveness evidence (nil when not run) and
-	// EffectChoice its account for the record.
+	// Effect is the effectiveness evidence the choice rests on (the chosen
+	// kind's, else the drifting kind's; nil when not run) and EffectChoice
+	// its account for the record.
 	Effect       *validation.EffectResult
 	EffectChoice *record.EffectChoice
 }
@@ -203,14 +205,16 @@ func Prepare(ctx context.Context, in Input, s Settings) (*Prepared, error) {
 		return nil, fail(StageAllocation, err)
 	}
 
-	// Effectiveness: constant, or drifting where the evidence says so.
+	// Effectiveness: constant, or drifting or seasonal where the evidence
+	// says so.
 	var choice *record.EffectChoice
 	var effect *validation.EffectResult
+	var effectChecks []validation.Check
 	if s.EffectChoice || d.Spec.AnyDrifting() {
 		if s.Progress != nil {
 			s.Progress("effectiveness", 0, 1)
 		}
-		if d, choice, effect, err = chooseEffect(d, y, s, in.Draws != nil); err != nil {
+		if d, choice, effect, effectChecks, err = chooseEffect(d, y, s, in.Draws != nil); err != nil {
 			return nil, fail(StageValidation, fmt.Errorf("effectiveness evidence: %w", err))
 		}
 		in.Design = d
@@ -254,6 +258,10 @@ func Prepare(ctx context.Context, in Input, s Settings) (*Prepared, error) {
 	if err != nil {
 		return nil, fail(StageValidation, err)
 	}
+	// A channel the effectiveness evidence names as changed but the
+	// decision keeps constant is for the policy to act on
+	// (effect/modelled, family effectiveness).
+	val.Evidence.Checks = append(val.Evidence.Checks, effectChecks...)
 
 	// Proposal: the allocator's on its half of the draws, or a person's.
 	h := plan.HorizonWeeks

@@ -56,6 +56,12 @@ type TrueChannel struct {
 	// last week's is Beta·(1 + Drift) and the horizon's truth uses that.
 	// 0 (the default) is a constant effectiveness; it must exceed −1.
 	Drift float64 `yaml:"drift" json:"drift,omitempty"`
+	// DriftStart is the week the drift begins: before it the effectiveness
+	// is Beta, from it to the last week it ramps linearly to
+	// Beta·(1 + Drift): β(t) = Beta·(1 + Drift·max(0, t−s)/(n−1−s)). 0 (the
+	// default) ramps over the whole history; a late start is a change the
+	// history's average hides.
+	DriftStart int `yaml:"drift_start_week" json:"drift_start_week,omitempty"`
 	// SeasonEffect is the amplitude of a seasonal effectiveness: the
 	// coefficient is multiplied by 1 + SeasonEffect·cos(2πt/52.18), also in
 	// the horizon's weeks; 0 (the default) is none; |SeasonEffect| < 1.
@@ -147,6 +153,9 @@ func (t *Truth) fill(source string) error {
 		}
 		if !(c.Drift > -1 && c.Drift <= 10) {
 			return bad(p+".drift", "%g must be above -1 and at most 10", c.Drift)
+		}
+		if c.DriftStart < 0 || c.DriftStart >= t.Weeks-1 {
+			return bad(p+".drift_start_week", "%d must lie between 0 and the weeks less two (%d)", c.DriftStart, t.Weeks-2)
 		}
 		if !(math.Abs(c.SeasonEffect) < 1) {
 			return bad(p+".season_effect", "%g must lie strictly between -1 and 1", c.SeasonEffect)
@@ -295,7 +304,8 @@ func Simulate(t *Truth) (*Simulated, error) {
 	for k, c := range t.Channels {
 		paths[k] = make([]float64, n)
 		for i := range paths[k] {
-			paths[k][i] = c.Beta * (1 + c.Drift*float64(i)/float64(max(n-1, 1))) * season(c, i)
+			ramp := float64(max(0, i-c.DriftStart)) / float64(max(n-1-c.DriftStart, 1))
+			paths[k][i] = c.Beta * (1 + c.Drift*ramp) * season(c, i)
 		}
 		if c.Drift == 0 && c.SeasonEffect == 0 {
 			continue

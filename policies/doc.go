@@ -96,8 +96,12 @@
 //	                           thresholds. Absent: {fail: 0.05, warn: 0.20}.
 //	evidence.families.F        {on_fail, on_warn, false_alarm} for family F
 //	                           (accuracy, recovery, stability, lift,
-//	                           reconciliation, identification); absent fields
-//	                           inherit the defaults above.
+//	                           reconciliation, identification,
+//	                           effectiveness); absent fields inherit the
+//	                           defaults above. effectiveness has one check,
+//	                           effect/modelled: a channel whose
+//	                           effectiveness the evidence names as changed
+//	                           but the decision keeps constant.
 //
 //	                           Evidence acts by scope: a check about one
 //	                           channel holds or caps that channel (refuse on a

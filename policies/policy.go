@@ -424,7 +424,7 @@ var Verdicts = []string{"approve", "downsize", "refuse"}
 // Families are the evidence families a policy may name.
 var Families = []validation.Family{
 	validation.Accuracy, validation.Recovery, validation.Stability,
-	validation.Lift, validation.Reconciliation, validation.Identification,
+	validation.Lift, validation.Reconciliation, validation.Identification, validation.EffectFamily,
 }
 
 // Load reads, decodes and checks the policy file at path. Key file paths in

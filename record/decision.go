@@ -92,9 +92,12 @@ type EffectChoice struct {
 	Note          string         `json:"note,omitempty"`
 }
 
-// EffectChange is one channel's effectiveness in the last week over its
-// history average, with its 90% bootstrap interval and z.
+// EffectChange is one channel's change of effectiveness under one varying
+// specification (Kind: drifting — the last week over the history average;
+// seasonal — the next weeks over the yearly average), with its 90%
+// bootstrap interval and the test's z.
 type EffectChange struct {
+	Kind    string  `json:"kind,omitempty"`
 	Channel string  `json:"channel"`
 	Change  float64 `json:"change"`
 	Low     float64 `json:"low"`

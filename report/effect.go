@@ -13,21 +13,24 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 )
 
-// EffectPath is a drifting channel's effectiveness in every week of the
-// data, with its 90% bootstrap band, as the decision's effectiveness
-// evidence estimated it (validation.EffectChannel's path). Units do not
-// matter: the chart shows each week's effectiveness over the path's mean.
-// Change, Low and High are the last week's effectiveness over the history
-// average and its 90% interval.
+// EffectPath is a drifting (or seasonal) channel's effectiveness in every
+// week of the data, with its 90% bootstrap band, as the decision's
+// effectiveness evidence estimated it (validation.EffectChannel's path).
+// Units do not matter: the chart shows each week's effectiveness over the
+// path's mean. Change, Low and High are the last week's effectiveness over
+// the history average and its 90% interval; for a seasonal channel
+// (SeasonWeeks > 0) the next SeasonWeeks weeks' effectiveness over the
+// yearly average.
 type EffectPath struct {
-	Channel  string    `json:"channel"`
-	Weeks    []string  `json:"weeks"`
-	Path     []float64 `json:"path"`
-	PathLow  []float64 `json:"path_low"`
-	PathHigh []float64 `json:"path_high"`
-	Change   float64   `json:"change"`
-	Low      float64   `json:"low"`
-	High     float64   `json:"high"`
+	SeasonWeeks int       `json:"season_weeks,omitempty"`
+	Channel     string    `json:"channel"`
+	Weeks       []string  `json:"weeks"`
+	Path        []float64 `json:"path"`
+	PathLow     []float64 `json:"path_low"`
+	PathHigh    []float64 `json:"path_high"`
+	Change      float64   `json:"change"`
+	Low         float64   `json:"low"`
+	High        float64   `json:"high"`
 }
 
 // effectChart draws each drifting channel's effectiveness over the weeks
@@ -112,15 +115,24 @@ func effectChart(paths []EffectPath) ([]byte, error) {
 // last week compares with its history average.
 func effectCaption(paths []EffectPath) string {
 	var parts []string
+	seasonal := false
 	for _, e := range paths {
 		dir := "above"
 		if e.Change < 1 {
 			dir = "below"
 		}
-		parts = append(parts, fmt.Sprintf("%s's effectiveness in the last week is %s %s its history average (90%% interval %s to %s)",
-			e.Channel, pct(math.Round(math.Abs(e.Change-1)*1000)/1000), dir, changePct(e.Low-1), changePct(e.High-1)))
+		when, against := "in the last week", "its history average"
+		if e.SeasonWeeks > 0 {
+			when, against, seasonal = fmt.Sprintf("over the next %d weeks", e.SeasonWeeks), "its yearly average", true
+		}
+		parts = append(parts, fmt.Sprintf("%s's effectiveness %s is %s %s %s (90%% interval %s to %s)",
+			e.Channel, when, pct(math.Round(math.Abs(e.Change-1)*1000)/1000), dir, against, changePct(e.Low-1), changePct(e.High-1)))
 	}
-	return strings.Join(parts, "; ") + ". The decision uses each channel's effectiveness at the end of the data, not its average over the past, which is why it can differ from last year's figures. The band is the 90% range of the effectiveness over bootstrap refits; a wide band near the end means the current level is uncertain."
+	uses := "The decision uses each channel's effectiveness at the end of the data, not its average over the past, which is why it can differ from last year's figures."
+	if seasonal {
+		uses = "The decision uses each channel's effectiveness in the season of the weeks it plans, not its average over the year, which is why it can differ from last year's figures."
+	}
+	return strings.Join(parts, "; ") + ". " + uses + " The band is the 90% range of the effectiveness over bootstrap refits; a wide band near the end means the current level is uncertain."
 }
 
 func changePct(x float64) string {

@@ -8,6 +8,7 @@ import (
 
 	"sluice/internal/sample"
 	"sluice/model"
+	"sluice/validation"
 )
 
 // effectTruth: search's effectiveness changes by up and social's by −down
@@ -49,11 +50,11 @@ type effectRun struct {
 // last week's true effectiveness), ROI 90% intervals against the true ROI
 // over the history (groundtruth for constant channels; β(t) week by week
 // for drifting ones, in model.Simulate's truth), and the holdout wMAPE.
-func runEffectWorld(t *testing.T, sim *model.Simulated, drifting bool) effectRun {
+func runEffectWorld(t *testing.T, sim *model.Simulated, drifting []string) effectRun {
 	t.Helper()
 	spec := sim.Truth.Spec()
-	if drifting {
-		if err := spec.SetDrifting([]string{"all"}); err != nil {
+	if len(drifting) > 0 {
+		if err := spec.SetDrifting(drifting); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -97,21 +98,26 @@ func runEffectWorld(t *testing.T, sim *model.Simulated, drifting bool) effectRun
 	return r
 }
 
-// The decision with and without the drifting option. Drift worlds: search's
+// The decision with and without the drifting option, three ways: the
+// constant model; every channel drifting; and the option as propose uses
+// it — the effectiveness evidence (validation.EffectEvidence and
+// ChooseEffect, the same calls as the decision pipeline) picks the model
+// and only the channels it names drift. Drift worlds: search's
 // effectiveness doubles and social's halves over three years (search looks
 // worse than social on the history's average, better at its end). No-drift
 // worlds: the same channels, all constant. Truth by package groundtruth.
 //
-// Goals: in drift worlds the drifting option's raw proposal keeps at least
+// Goals: in drift worlds the chosen model's raw proposal keeps at least
 // half the oracle's true gain in total, and materially more than the
-// constant model's; in no-drift worlds the option costs little: total true
-// gain at least 90% of the constant model's, holdout wMAPE at most half a
-// point above it (measured: 0.97% constant, 1.18% drifting — 22% more in
-// relative terms, which is why the evidence, not a default, turns the
-// option on), median ROI interval width within 25% of it (the drifting
-// model has more coefficients, so somewhat wider intervals are expected).
+// constant model's; in no-drift worlds the option costs little: the
+// chosen model's total true gain at least 95% of the constant model's,
+// its holdout wMAPE at most 5% (relative) above it and its median ROI
+// interval width within 5% of it. Every channel drifting costs more where
+// nothing drifts (measured: holdout wMAPE 0.97% constant, 1.18% all
+// drifting, 22% more in relative terms) — which is why the evidence, not
+// a default, turns the option on, channel by channel.
 //
-// Rerun: go test ./study -run EffectDecision -v   (45 s on 2 cores)
+// Rerun: go test ./study -run EffectDecision -v   (about a minute on 2 cores)
 func TestEffectDecision(t *testing.T) {
 	if testing.Short() {
 		t.Skip("simulation study: 8 worlds, two bootstraps each")
@@ -133,9 +139,35 @@ func TestEffectDecision(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			for _, drifting := range []bool{false, true} {
-				r := runEffectWorld(t, sim, drifting)
-				key := fmt.Sprintf("%s/%v", kind, drifting)
+			d, err := model.NewDesign(sim.Panel, sim.Truth.Spec())
+			if err != nil {
+				t.Fatal(err)
+			}
+			evs, err := validation.EffectEvidence(d, sim.Panel.KPI, validation.EffectSettings{Seed: 9, Workers: 2})
+			if err != nil {
+				t.Fatal(err)
+			}
+			var chosen []string
+			if ev := validation.ChooseEffect(evs); ev != nil && ev.Kind == model.EffectDrifting {
+				chosen = ev.Named()
+			} else if ev != nil {
+				t.Errorf("%s world %d: the evidence chose %s effectiveness; these worlds have no season", kind, seed, ev.Kind)
+			}
+			runs := map[string]effectRun{}
+			for _, arm := range []string{"constant", "all", "chosen"} {
+				var r effectRun
+				switch {
+				case arm == "constant":
+					r = runEffectWorld(t, sim, nil)
+				case arm == "all":
+					r = runEffectWorld(t, sim, []string{"all"})
+				case len(chosen) == 0:
+					r = runs["constant"] // the evidence kept the constant model: the same decision
+				default:
+					r = runEffectWorld(t, sim, chosen)
+				}
+				runs[arm] = r
+				key := kind + "/" + arm
 				if sum[key] == nil {
 					sum[key] = &tally{}
 				}
@@ -144,33 +176,34 @@ func TestEffectDecision(t *testing.T) {
 				s.oracle += r.oracle
 				s.holdout += r.holdout / 4
 				s.widths = append(s.widths, r.roiWidth...)
-				rows = append(rows, fmt.Sprintf("%-6s world %d drifting=%-5v true gain %9.0f oracle %9.0f  holdout wMAPE %.2f%%  ROI in band %v",
-					kind, seed, drifting, r.gain, r.oracle, 100*r.holdout, r.roiIn))
+				rows = append(rows, fmt.Sprintf("%-6s world %d %-8s %-15s true gain %9.0f oracle %9.0f  holdout wMAPE %.2f%%  ROI in band %v",
+					kind, seed, arm, strings.Join(chosen, ","), r.gain, r.oracle, 100*r.holdout, r.roiIn))
 			}
 		}
 	}
 	t.Log("\n" + strings.Join(rows, "\n"))
 	med := func(x []float64) float64 { return sample.Quantiles(x, 0.5)[0] }
 	for _, kind := range []string{"drift", "steady"} {
-		c, d := sum[kind+"/false"], sum[kind+"/true"]
-		t.Logf("%s worlds: share of the oracle's gain constant %.0f%%, drifting %.0f%%; holdout wMAPE %.2f%% vs %.2f%%; median ROI band width %.2f vs %.2f of the true ROI",
-			kind, 100*c.gain/c.oracle, 100*d.gain/d.oracle, 100*c.holdout, 100*d.holdout, med(c.widths), med(d.widths))
+		c, a, h := sum[kind+"/constant"], sum[kind+"/all"], sum[kind+"/chosen"]
+		t.Logf("%s worlds: share of the oracle's gain constant %.0f%%, all drifting %.0f%%, chosen %.0f%%; holdout wMAPE %.2f%% / %.2f%% / %.2f%%; median ROI band width %.2f / %.2f / %.2f of the true ROI",
+			kind, 100*c.gain/c.oracle, 100*a.gain/a.oracle, 100*h.gain/h.oracle, 100*c.holdout, 100*a.holdout, 100*h.holdout,
+			med(c.widths), med(a.widths), med(h.widths))
 	}
-	dr, dc := sum["drift/true"], sum["drift/false"]
+	dr, dc := sum["drift/chosen"], sum["drift/constant"]
 	if dr.gain < 0.5*dr.oracle {
-		t.Errorf("drift worlds: the drifting option keeps %.0f%% of the oracle's gain (goal >= 50%%)", 100*dr.gain/dr.oracle)
+		t.Errorf("drift worlds: the chosen model keeps %.0f%% of the oracle's gain (goal >= 50%%)", 100*dr.gain/dr.oracle)
 	}
 	if dr.gain < dc.gain+0.1*dr.oracle {
-		t.Errorf("drift worlds: the drifting option's gain %.0f is not materially above the constant model's %.0f", dr.gain, dc.gain)
+		t.Errorf("drift worlds: the chosen model's gain %.0f is not materially above the constant model's %.0f", dr.gain, dc.gain)
 	}
-	sr, sc := sum["steady/true"], sum["steady/false"]
-	if sr.gain < 0.9*sc.gain {
-		t.Errorf("no-drift worlds: the option's gain %.0f is below 90%% of the constant model's %.0f", sr.gain, sc.gain)
+	sr, sc := sum["steady/chosen"], sum["steady/constant"]
+	if sr.gain < 0.95*sc.gain {
+		t.Errorf("no-drift worlds: the option's gain %.0f is below 95%% of the constant model's %.0f", sr.gain, sc.gain)
 	}
-	if sr.holdout > sc.holdout+0.005 {
-		t.Errorf("no-drift worlds: holdout wMAPE %.2f%% against %.2f%% (more than half a point worse)", 100*sr.holdout, 100*sc.holdout)
+	if sr.holdout > 1.05*sc.holdout {
+		t.Errorf("no-drift worlds: holdout wMAPE %.2f%% against %.2f%% (more than 5%% worse)", 100*sr.holdout, 100*sc.holdout)
 	}
-	if med(sr.widths) > 1.25*med(sc.widths) {
-		t.Errorf("no-drift worlds: median ROI band width %.2f against %.2f (more than 25%% wider)", med(sr.widths), med(sc.widths))
+	if med(sr.widths) > 1.05*med(sc.widths) {
+		t.Errorf("no-drift worlds: median ROI band width %.2f against %.2f (more than 5%% wider)", med(sr.widths), med(sc.widths))
 	}
 }

@@ -2,6 +2,7 @@ package validation
 
 import (
 	"fmt"
+	"strings"
 	"math"
 	"math/rand/v2"
 
@@ -9,6 +10,7 @@ import (
 
 	"sluice/internal/sample"
 	"sluice/model"
+	"sluice/uncertainty"
 )
 
 // EffectSettings says how the effectiveness check runs. Zero fields mean
@@ -28,9 +30,17 @@ type EffectSettings struct {
 	// Kind is the varying specification tested against the constant one:
 	// model.EffectDrifting (the default) or model.EffectSeasonal.
 	Kind string
+	// NullPanels is the number of panels simulated from the constant fit
+	// (no change of effectiveness) that calibrate the test; 0 means
+	// Replicates.
+	NullPanels int
+	// RecentWeeks is the window of the drifting test statistic: the
+	// effectiveness over the last RecentWeeks weeks over its mean over the
+	// history; 0 means 26 (two quarters), at most a third of the history.
+	RecentWeeks int
 	// Alpha is the family-wise false-alarm share over all channels: a
-	// channel is named as changed when |log change| / SD exceeds the
-	// normal quantile 1 − Alpha/(2K), K channels (Bonferroni); 0 means 0.10.
+	// channel is named as changed when its z exceeds the Student t
+	// quantile 1 − Alpha/(2K), K channels (Bonferroni); 0 means 0.10.
 	Alpha float64
 }
 
@@ -45,6 +55,8 @@ func (s EffectSettings) withDefaults() EffectSettings {
 	def(&s.BlockWeeks, 8)
 	def(&s.Origins, 3)
 	def(&s.OriginWeeks, 13)
+	def(&s.NullPanels, s.Replicates)
+	def(&s.RecentWeeks, 26)
 	if s.Alpha <= 0 || s.Alpha >= 1 {
 		s.Alpha = 0.10
 	}
@@ -56,15 +68,22 @@ func (s EffectSettings) withDefaults() EffectSettings {
 
 // EffectChannel is one channel's effectiveness evidence: the drifting fit's
 // effectiveness in the last week over its mean over the history (Change),
-// its 90% interval from the bootstrap, its z (log Change over the
-// bootstrap SD of log Change) and whether the change is named.
+// its 90% interval from the bootstrap, the test statistic (Recent) with
+// its z against panels simulated without any change, and whether the
+// change is named.
 type EffectChannel struct {
-	Kind     string    `json:"kind"` // drifting or seasonal
-	Horizon  int       `json:"horizon_weeks,omitempty"`
-	Name     string    `json:"name"`
-	Change   float64   `json:"change"`
-	Low      float64   `json:"low"`  // 5% of the bootstrap
-	High     float64   `json:"high"` // 95%
+	Kind    string  `json:"kind"` // drifting or seasonal
+	Horizon int     `json:"horizon_weeks,omitempty"`
+	Name    string  `json:"name"`
+	Change  float64 `json:"change"`
+	Low     float64 `json:"low"`  // 5% of the bootstrap
+	High    float64 `json:"high"` // 95%
+	// Recent is the test statistic: for the drifting kind the fit's
+	// effectiveness over the last RecentWeeks weeks over its history mean,
+	// for the seasonal kind the same as Change.
+	Recent float64 `json:"recent"`
+	// Z is (log Recent − m) / s, m and s the mean and SD of log Recent over
+	// the panels simulated from the constant fit.
 	Z        float64   `json:"z"`
 	Changed  bool      `json:"changed"`
 	Path     []float64 `json:"path"`      // β(t) of the drifting fit, every week
@@ -78,6 +97,12 @@ type EffectResult struct {
 	Channels []EffectChannel `json:"channels"`
 	ZCrit    float64         `json:"z_critical"`
 	Alpha    float64         `json:"alpha"`
+	// RecentWeeks is the drifting statistic's window (0 for seasonal).
+	RecentWeeks int `json:"recent_weeks,omitempty"`
+	// NullPanels is the number of simulated panels without a change whose
+	// refit succeeded, of NullTried; they set each channel's z.
+	NullPanels int `json:"null_panels"`
+	NullTried  int `json:"null_tried"`
 	// Replicates is the number of bootstrap refits that succeeded, of
 	// Tried.
 	Replicates int `json:"replicates"`
@@ -100,30 +125,50 @@ type EffectResult struct {
 // Effectiveness checks whether each channel's effectiveness has changed
 // over the history. It fits the model with every channel drifting
 // (model.EffectDrifting) and reads each channel's effectiveness in the last
-// week over its mean over the history; a moving-block residual bootstrap of
-// that fit (residuals inflated by √(n/(n−p)), every refit warm-started from
-// the fit, same step priors) gives the change's interval and its SD on the
-// log scale, and a channel is named as changed when |log change| exceeds
-// the Bonferroni normal quantile times that SD. A rolling-origin backtest
-// over the last weeks compares the drifting and constant specifications
-// out of sample, where a late change matters. d is the user's design (its
-// own effectiveness settings are replaced by all-drifting and all-constant).
+// week over its mean over the history (the change a decision for the next
+// weeks meets); a moving-block residual bootstrap of that fit (residuals
+// inflated by √(n/(n−p)), every refit warm-started from the fit, same
+// priors) gives the change's interval and the band of the path.
+//
+// The test is calibrated by simulation from the user's own data, as the
+// gate's checks are: panels are simulated from the constant-effectiveness
+// fit (its fitted values plus its resampled, inflated residuals: worlds
+// where no effectiveness changed), the drifting model is refitted on each
+// with the same priors, and each channel's statistic — the effectiveness
+// over the last RecentWeeks weeks over its history mean, on the log scale
+// — is compared with its spread over those panels: z = (observed − mean) /
+// SD, named above the Student t quantile (NullPanels − 1 degrees of
+// freedom) at the Bonferroni level Alpha/(2K). The recent window rather
+// than the last week alone is tested because the last week rests on the
+// last basis function only and is noisy; a window of two quarters still
+// sees a change late in the history. The spread is measured where no
+// change happened, so a channel whose effectiveness fell is not judged
+// against the wider log-scale spread of its own small end value.
+//
+// A rolling-origin backtest over the last weeks compares the drifting and
+// constant specifications out of sample, where a late change matters. d
+// is the user's design (its own effectiveness settings are replaced by
+// all-drifting and all-constant).
 //
 // With Kind seasonal the model is fitted with every channel seasonal and
 // the statistic is each channel's effectiveness over the next horizon over
 // its yearly average (model.Design.SeasonLift): what a decision for the
-// coming weeks gains from the season.
+// coming weeks gains from the season; it is tested the same way.
 func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectResult, error) {
 	set = set.withDefaults()
 	var dd *model.Design
 	var err error
-	stat := func(p model.Params, k int) float64 { return dd.EffectChange(p, k) }
+	n := d.N
+	recent := min(set.RecentWeeks, max(n/3, 1))
+	change := func(p model.Params, k int) float64 { return dd.EffectChange(p, k) }
+	stat := func(p model.Params, k int) float64 { return recentChange(dd.EffectPath(p, k), recent) }
 	switch set.Kind {
 	case model.EffectDrifting:
 		dd, err = d.WithDrifting([]string{"all"})
 	case model.EffectSeasonal:
 		dd, err = d.WithSeasonal([]string{"all"})
-		stat = func(p model.Params, k int) float64 { return dd.SeasonLift(p, k) }
+		change = func(p model.Params, k int) float64 { return dd.SeasonLift(p, k) }
+		stat, recent = change, 0
 	default:
 		return nil, fmt.Errorf("effectiveness: kind %q is not drifting or seasonal", set.Kind)
 	}
@@ -131,12 +176,16 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 		return nil, err
 	}
 	K := len(d.Spec.Channels)
-	res := &EffectResult{Kind: set.Kind, Alpha: set.Alpha, Tried: set.Replicates, Prefer: model.EffectConstant}
-	res.ZCrit = distuv.UnitNormal.Quantile(1 - set.Alpha/(2*float64(K)))
-	if need := dd.Spec.NumParams() + 10; d.N < need {
-		res.Tried = 0
+	if set.Kind == model.EffectSeasonal && float64(n) < 2*d.Spec.Period {
+		return &EffectResult{Kind: set.Kind, Alpha: set.Alpha, Prefer: model.EffectConstant,
+			Notes: []string{fmt.Sprintf("the seasonal check did not run: a season of effectiveness needs two years of weeks (%.0f), the data have %d", math.Ceil(2*d.Spec.Period), n)}}, nil
+	}
+	res := &EffectResult{Kind: set.Kind, Alpha: set.Alpha, Tried: set.Replicates, NullTried: set.NullPanels,
+		RecentWeeks: recent, Prefer: model.EffectConstant}
+	if need := dd.Spec.NumParams() + 10; n < need {
+		res.Tried, res.NullTried = 0, 0
 		res.Notes = append(res.Notes, fmt.Sprintf("the %s check did not run: with every channel %s the model has %d parameters and needs at least %d weeks, the data have %d",
-			set.Kind, set.Kind, dd.Spec.NumParams(), need, d.N))
+			set.Kind, set.Kind, dd.Spec.NumParams(), need, n))
 		return res, nil
 	}
 	fit, err := dd.Fit(y, model.FitSettings{Seed: set.Seed, Workers: set.Workers})
@@ -144,13 +193,29 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 		return nil, fmt.Errorf("%s fit: %w", set.Kind, err)
 	}
 	res.Fit = fit
-	// Bootstrap of the drifting fit.
-	n, p := d.N, dd.Spec.NumParams()
-	infl := math.Sqrt(float64(n) / float64(max(1, n-p)))
-	changes := make([][]float64, K)
-	paths := make([][][]float64, K)
+	dc := d.WithConstant()
+	cfit, err := dc.Fit(y, model.FitSettings{Seed: set.Seed, Workers: set.Workers})
+	if err != nil {
+		return nil, fmt.Errorf("constant fit: %w", err)
+	}
+	// Every refit, of the bootstrap and of the simulated panels, starts
+	// from the drifting fit's nonlinear parameters (the linear weights are
+	// solved afresh) and keeps the fit's priors and σ, so the observed
+	// statistic and its calibration come from the same estimator.
 	warm := fit.Params.Clone()
-	for i := range set.Replicates {
+	refit := func(ys []float64) (*model.FitResult, error) {
+		return dd.Fit(ys, model.FitSettings{Warm: &warm, Priors: fit.Priors, NoiseSD: fit.NoiseSD, NoPriors: fit.Priors == nil})
+	}
+	// Bootstrap of the drifting fit: the interval of the change and the
+	// band of the path.
+	p := dd.Spec.NumParams()
+	infl := math.Sqrt(float64(n) / float64(max(1, n-p)))
+	type draw struct {
+		change []float64
+		paths  [][]float64
+	}
+	boot := make([]*draw, set.Replicates)
+	parallel(set.Replicates, set.Workers, func(i int) {
 		rng := rand.New(rand.NewPCG(set.Seed, 0xeff0000+uint64(i)))
 		ys := make([]float64, n)
 		for t := 0; t < n; {
@@ -160,32 +225,69 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 				t++
 			}
 		}
-		fr, err := dd.Fit(ys, model.FitSettings{Warm: &warm, Priors: fit.Priors, NoiseSD: fit.NoiseSD, NoPriors: fit.Priors == nil})
+		fr, err := refit(ys)
 		if err != nil {
+			return
+		}
+		dr := &draw{change: make([]float64, K), paths: make([][]float64, K)}
+		for k := range K {
+			dr.change[k], dr.paths[k] = change(fr.Params, k), dd.EffectPath(fr.Params, k)
+		}
+		boot[i] = dr
+	})
+	// Panels without any change: the constant fit plus its residuals.
+	sim := newSimulator(cfit.Fitted, cfit.Residuals, float64(n)/float64(max(1, n-dc.Spec.NumParams())))
+	null := make([][]float64, set.NullPanels)
+	parallel(set.NullPanels, set.Workers, func(i int) {
+		fr, err := refit(sim.panel(uncertainty.Stream(set.Seed, effectNullStream+i)))
+		if err != nil {
+			return
+		}
+		row := make([]float64, K)
+		for k := range K {
+			row[k] = math.Log(math.Max(stat(fr.Params, k), 1e-9))
+		}
+		null[i] = row
+	})
+	changes := make([][]float64, K)
+	paths := make([][][]float64, K)
+	for _, dr := range boot {
+		if dr == nil {
 			continue
 		}
 		res.Replicates++
 		for k := range K {
-			changes[k] = append(changes[k], stat(fr.Params, k))
-			paths[k] = append(paths[k], dd.EffectPath(fr.Params, k))
+			changes[k] = append(changes[k], dr.change[k])
+			paths[k] = append(paths[k], dr.paths[k])
 		}
 	}
-	if res.Replicates < 10 {
-		return nil, fmt.Errorf("effectiveness: only %d of %d bootstrap refits of the %s fit succeeded", res.Replicates, res.Tried, set.Kind)
+	nulls := make([][]float64, K)
+	for _, row := range null {
+		if row == nil {
+			continue
+		}
+		res.NullPanels++
+		for k := range K {
+			nulls[k] = append(nulls[k], row[k])
+		}
+	}
+	if res.Replicates < 10 || res.NullPanels < 10 {
+		return nil, fmt.Errorf("effectiveness: only %d of %d bootstrap refits and %d of %d refits of panels without change of the %s fit succeeded (10 of each needed)",
+			res.Replicates, res.Tried, res.NullPanels, res.NullTried, set.Kind)
 	}
 	if res.Replicates < res.Tried {
 		res.Notes = append(res.Notes, fmt.Sprintf("%d of %d bootstrap refits failed and are left out", res.Tried-res.Replicates, res.Tried))
 	}
+	if res.NullPanels < res.NullTried {
+		res.Notes = append(res.Notes, fmt.Sprintf("%d of %d refits of the panels simulated without change failed and are left out", res.NullTried-res.NullPanels, res.NullTried))
+	}
+	res.ZCrit = distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(res.NullPanels - 1)}.Quantile(1 - set.Alpha/(2*float64(K)))
 	for k, c := range d.Spec.Channels {
-		ec := EffectChannel{Kind: set.Kind, Horizon: d.Spec.Horizon, Name: c.Name, Change: stat(fit.Params, k), Path: dd.EffectPath(fit.Params, k)}
-		logs := make([]float64, len(changes[k]))
-		for i, v := range changes[k] {
-			logs[i] = math.Log(math.Max(v, 1e-9))
-		}
-		sd := sdOf(logs)
-		ec.Low, ec.High = quantileOf(changes[k], 0.05), quantileOf(changes[k], 0.95)
-		if sd > 0 {
-			ec.Z = math.Log(math.Max(ec.Change, 1e-9)) / sd
+		ec := EffectChannel{Kind: set.Kind, Horizon: d.Spec.Horizon, Name: c.Name, Change: change(fit.Params, k),
+			Recent: stat(fit.Params, k), Path: dd.EffectPath(fit.Params, k)}
+		ec.Low, ec.High = changeInterval(ec.Change, changes[k])
+		if m, sd := meanOf(nulls[k]), sdOf(nulls[k]); sd > 0 {
+			ec.Z = (math.Log(math.Max(ec.Recent, 1e-9)) - m) / sd
 		}
 		ec.Changed = math.Abs(ec.Z) > res.ZCrit
 		ec.PathLow, ec.PathHigh = make([]float64, n), make([]float64, n)
@@ -194,7 +296,7 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 			for i := range paths[k] {
 				col[i] = paths[k][i][t]
 			}
-			ec.PathLow[t], ec.PathHigh[t] = quantileOf(col, 0.05), quantileOf(col, 0.95)
+			ec.PathLow[t], ec.PathHigh[t] = changeInterval(ec.Path[t], col)
 		}
 		if ec.Low < 0.05 {
 			res.Notes = append(res.Notes, fmt.Sprintf("%s: the %s fit cannot settle its effectiveness (the 90%% interval reaches zero)", c.Name, set.Kind))
@@ -202,7 +304,6 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 		res.Channels = append(res.Channels, ec)
 	}
 	// Rolling-origin backtest over the last weeks, both specifications.
-	dc := d.WithConstant()
 	var sseD, sseC float64
 	for i := range set.Origins {
 		origin := n - (set.Origins-i)*set.OriginWeeks
@@ -243,6 +344,98 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 		}
 	}
 	return res, nil
+}
+
+// EffectFamily is the family of the decision's check that a channel
+// whose effectiveness the evidence names as changed is decided with a
+// model that lets it vary (ModelledChecks).
+const EffectFamily Family = "effectiveness"
+
+// ModelledChecks are a decision's effectiveness checks, one per channel of
+// d ("effect/modelled", family EffectFamily): a channel fails when some
+// kind of evidence in rs names its effectiveness as changed and d, the
+// design the decision used, keeps it constant — the decision then reads
+// the history's average where the evidence says it no longer holds
+// (because the varying specification did not forecast the last weeks
+// better, or a draws file fixed the constant one). It passes when no
+// evidence names it, or when d lets it vary. The naming is the evidence's
+// own test (family-wise Alpha), so the check carries no p-value of its
+// own for the policy to re-grade.
+func ModelledChecks(rs []*EffectResult, d *model.Design) []Check {
+	var out []Check
+	for k, c := range d.Spec.Channels {
+		var named []string
+		var z float64
+		for _, r := range rs {
+			for _, ec := range r.Channels {
+				if ec.Name == c.Name && ec.Changed {
+					named = append(named, r.Kind+": "+ec.Words())
+					z = max(z, math.Abs(ec.Z))
+				}
+			}
+		}
+		switch {
+		case len(named) == 0:
+			out = append(out, check("effect/modelled", EffectFamily, c.Name, Pass, 0, 0, "effectiveness not named as changed"))
+		case d.Spec.Channels[k].Varying():
+			out = append(out, check("effect/modelled", EffectFamily, c.Name, Pass, z, 0, "named as changed (%s) and decided with a %s effectiveness",
+				strings.Join(named, "; "), d.Spec.Channels[k].Effectiveness))
+		default:
+			out = append(out, check("effect/modelled", EffectFamily, c.Name, Fail, z, 0, "named as changed (%s) but decided with a constant effectiveness, the history's average",
+				strings.Join(named, "; ")))
+		}
+	}
+	return out
+}
+
+// EffectKinds are the varying specifications the evidence tests, in the
+// order it reports them.
+var EffectKinds = []string{model.EffectDrifting, model.EffectSeasonal}
+
+// EffectEvidence runs Effectiveness once per kind of EffectKinds (set.Kind
+// is ignored), each with the same seed.
+func EffectEvidence(d *model.Design, y []float64, set EffectSettings) ([]*EffectResult, error) {
+	var out []*EffectResult
+	for _, kind := range EffectKinds {
+		set.Kind = kind
+		r, err := Effectiveness(d, y, set)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, r)
+	}
+	return out, nil
+}
+
+// ChooseEffect returns the result whose varying specification the
+// evidence prefers, or nil when every kind prefers the constant one. When
+// more than one kind names changes and forecasts the last weeks at least
+// as well as the constant specification, the one whose backtest RMSE ratio
+// is lower wins (the first of rs on a tie or when neither has a backtest):
+// both explain the same change, and the one that forecasts the weeks after
+// the origins better is the one to decide on.
+func ChooseEffect(rs []*EffectResult) *EffectResult {
+	var best *EffectResult
+	for _, r := range rs {
+		if r == nil || r.Prefer != r.Kind {
+			continue
+		}
+		if best == nil || (len(r.Origins) > 0 && len(best.Origins) > 0 && r.BacktestRatio < best.BacktestRatio) {
+			best = r
+		}
+	}
+	return best
+}
+
+// Named returns the channels whose change is named, in model order.
+func (r *EffectResult) Named() []string {
+	var out []string
+	for _, c := range r.Channels {
+		if c.Changed {
+			out = append(out, c.Name)
+		}
+	}
+	return out
 }
 
 // Words describes channel c's change for a person: direction, size and
@@ -292,6 +485,45 @@ func (r *EffectResult) checkName(drifting, seasonal string) string {
 	return drifting
 }
 
+// changeInterval is the 90% interval of a change θ̂ of effectiveness from
+// its bootstrap replicates θ*: the span of the percentile interval [q05,
+// q95] and the basic (reverse percentile) interval [2θ̂ − q95, 2θ̂ − q05]
+// (Davison & Hinkley 1997, Bootstrap Methods and their Application, §5.2),
+// floored at zero. The step prior shrinks a varying coefficient towards
+// flat and refits of data made from the shrunk fit shrink it again, so the
+// replicates sit on the flat side of the estimate. Where the truth did
+// change, the estimate is itself shrunk and the basic interval, which
+// reads the refits' shrinkage as the distance the truth lies beyond the
+// estimate, covers it while the percentile interval does not; where
+// nothing changed, the same shrinkage makes the basic interval step away
+// from flat and the percentile interval is the one that covers. The
+// bootstrap cannot tell the two apart, so the interval spans both.
+// Measured coverage of the true change, 90% nominal, over the 156
+// channel-worlds of validation/effectiveness_test.go (rising, falling,
+// late, seasonal and unchanged channels): percentile alone 86%, basic
+// alone 80%, the span of both 92% (unchanged channels 94%, changed ones
+// 86%). Bias-corrected percentile intervals (Efron 1981) were tried and
+// covered less than either with 60 replicates.
+func changeInterval(est float64, reps []float64) (lo, hi float64) {
+	q := sample.Quantiles(reps, 0.05, 0.95)
+	lo, hi = math.Min(q[0], 2*est-q[1]), math.Max(q[1], 2*est-q[0])
+	return math.Max(0, lo), hi
+}
+
+// effectNullStream offsets the streams of the panels simulated without a
+// change of effectiveness from those of the other simulated panels.
+const effectNullStream = 3 << 20
+
+// recentChange is a path's mean over its last w weeks over its mean over
+// all weeks (1 when the mean is not positive).
+func recentChange(path []float64, w int) float64 {
+	all, last := meanOf(path), meanOf(path[len(path)-w:])
+	if !(all > 0) {
+		return 1
+	}
+	return last / all
+}
+
 func sdOf(x []float64) float64 {
 	if len(x) < 2 {
 		return 0
@@ -306,9 +538,4 @@ func sdOf(x []float64) float64 {
 		s += (v - m) * (v - m)
 	}
 	return math.Sqrt(s / float64(len(x)-1))
-}
-
-// quantileOf is the project's sample quantile (Hyndman–Fan type 8).
-func quantileOf(x []float64, q float64) float64 {
-	return sample.Quantiles(x, q)[0]
 }

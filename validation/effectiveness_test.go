@@ -1,6 +1,7 @@
 package validation
 
 import (
+	"math"
 	"strings"
 	"testing"
 
@@ -45,29 +46,49 @@ func runEffect(t *testing.T, tr *model.Truth, reps int) (*model.Simulated, *Effe
 // rises 80%, social's falls 40% over three years; no-drift worlds: the
 // same with every channel constant. The true end-over-average change of a
 // linear path is (1+δ)/(1+δ/2) (closed form of the simulator's truth).
-// Goals (stated here, measured below): the rising channel named in at
-// least 5 of 6 drift worlds, every named channel in the right direction
-// (the falling channel's power is only reported: measured 0 of 6 at
-// Alpha 0.10, its z between −0.9 and −2.1 against 2.24 — a 40% fall of a
-// smaller channel is hard to tell from noise in three years); in no-drift worlds, the share of channel-worlds
-// named at most 10% (the family-wise Alpha spread over 4 channels gives
-// 2.5% per channel if the bootstrap SD were exact; the allowance covers
-// 40 replicates' noise in the SD), and the drifting specification
-// preferred in at most 20% of worlds.
+// The test is calibrated by panels simulated from each world's own
+// constant fit, so its stated false-alarm share per channel is Alpha/K =
+// 2.5% (family-wise 10% over 4 channels).
+//
+// Measured (60 bootstrap refits, 60 simulated panels per world): rising
+// named in 12 of 12 worlds, falling in 5 of 12 (z −3.1 to +0.3 against
+// 2.31; before the calibration by simulated panels, when z was the change
+// over its own bootstrap SD, the falling channel was named in 0 of 6: a
+// fallen channel's small end value has a wide log-scale spread that the
+// test no longer divides by); no-drift worlds 3 of 120 channel-worlds
+// named (2.5%), drifting preferred in 1 of 30 worlds. The 90% interval
+// of the change (changeInterval) covers the true change for the rising
+// channel in 10 of 12 worlds, the falling one in 11 of 12, and no change
+// in 113 of 120 no-drift channel-worlds (94%).
+//
+// Goals: the rising channel named in at least 11 of 12 drift worlds, the
+// falling one in at least 4 of 12, every named channel in the right
+// direction, the intervals covering the truth in at least 18 of the 24
+// drifting channel-worlds (75%) and at least 85% of the unchanged ones;
+// in no-drift worlds at most 5% of channel-worlds named (twice
+// the stated 2.5%: 120 channel-worlds measure a 2.5% rate to about ±1.4
+// points, binomial SD) and the drifting specification preferred in at
+// most 10% of worlds (family-wise 10%, and the backtest must agree too).
+//
+// Rerun: go test ./validation -run EffectivenessPowerAndFalseAlarms -v
+// (about 20 s on 2 cores).
 func TestEffectivenessPowerAndFalseAlarms(t *testing.T) {
-	nDrift, nFlat := 6, 12
+	nDrift, nFlat := 12, 30
 	if testing.Short() {
 		nDrift, nFlat = 2, 2
 	}
-	named := [2]int{}
+	named, covered := [2]int{}, [2]int{}
 	for i := range nDrift {
 		seed := uint64(100 + i)
-		_, r := runEffect(t, effectWorld(seed, 0.8, 0.4, 0.01), 40)
+		_, r := runEffect(t, effectWorld(seed, 0.8, 0.4, 0.01), 60)
 		for k, delta := range []float64{0.8, -0.4} {
 			c := r.Channels[k]
 			want := (1 + delta) / (1 + delta/2)
 			t.Logf("drift world %d %s: change %.2f [%.2f, %.2f] z %+.1f (true %.2f); backtest ratio %.3f, prefer %s",
 				seed, c.Name, c.Change, c.Low, c.High, c.Z, want, r.BacktestRatio, r.Prefer)
+			if c.Low <= want && want <= c.High {
+				covered[k]++
+			}
 			if c.Changed {
 				named[k]++
 				if (c.Change > 1) != (delta > 0) {
@@ -76,19 +97,26 @@ func TestEffectivenessPowerAndFalseAlarms(t *testing.T) {
 			}
 		}
 	}
-	t.Logf("named: rising %d of %d worlds, falling %d of %d", named[0], nDrift, named[1], nDrift)
+	t.Logf("named: rising %d of %d worlds, falling %d of %d; 90%% intervals cover the true change: rising %d, falling %d",
+		named[0], nDrift, named[1], nDrift, covered[0], covered[1])
 	if !testing.Short() {
-		if named[0] < 5 {
-			t.Errorf("power: rising named in %d of %d worlds (goal >= 5)", named[0], nDrift)
+		if named[0] < 11 || named[1] < 4 {
+			t.Errorf("power: rising named in %d of %d worlds (goal >= 11), falling in %d (goal >= 4)", named[0], nDrift, named[1])
+		}
+		if covered[0]+covered[1] < 18 {
+			t.Errorf("intervals cover the true change in %d of %d drifting channel-worlds (goal >= 18)", covered[0]+covered[1], 2*nDrift)
 		}
 	} else if named[0] < 1 {
 		t.Errorf("the rising channel was not named in either short world")
 	}
-	var alarms, prefer int
+	var alarms, prefer, cover int
 	for i := range nFlat {
 		seed := uint64(200 + i)
-		_, r := runEffect(t, effectWorld(seed, 0, 0, 0.01), 40)
+		_, r := runEffect(t, effectWorld(seed, 0, 0, 0.01), 60)
 		for _, c := range r.Channels {
+			if c.Low <= 1 && 1 <= c.High {
+				cover++
+			}
 			if c.Changed {
 				alarms++
 				t.Logf("no-drift world %d: %s named (change %.2f, z %+.1f)", seed, c.Name, c.Change, c.Z)
@@ -99,9 +127,13 @@ func TestEffectivenessPowerAndFalseAlarms(t *testing.T) {
 		}
 	}
 	share := float64(alarms) / float64(4*nFlat)
-	t.Logf("no-drift worlds: %d of %d channel-worlds named (%.1f%%), drifting preferred in %d of %d worlds", alarms, 4*nFlat, 100*share, prefer, nFlat)
-	if !testing.Short() && (share > 0.10 || float64(prefer) > 0.2*float64(nFlat)) {
-		t.Errorf("false alarms: %.1f%% of channel-worlds (goal <= 10%%), drifting preferred in %d of %d worlds (goal <= 20%%)", 100*share, prefer, nFlat)
+	t.Logf("no-drift worlds: %d of %d channel-worlds named (%.1f%%), drifting preferred in %d of %d worlds; 90%% intervals cover no change in %d",
+		alarms, 4*nFlat, 100*share, prefer, nFlat, cover)
+	if !testing.Short() && float64(cover) < 0.85*float64(4*nFlat) {
+		t.Errorf("intervals cover no change in %d of %d unchanged channel-worlds (goal >= 85%%)", cover, 4*nFlat)
+	}
+	if !testing.Short() && (share > 0.05 || float64(prefer) > 0.1*float64(nFlat)) {
+		t.Errorf("false alarms: %.1f%% of channel-worlds (goal <= 5%%), drifting preferred in %d of %d worlds (goal <= 10%%)", 100*share, prefer, nFlat)
 	}
 }
 
@@ -109,18 +141,24 @@ func TestEffectivenessPowerAndFalseAlarms(t *testing.T) {
 // 0.5·cos 2πt/52.18), the horizon falls at its peak (true lift of the next
 // 13 weeks over the year's average +36%: the mean of 1 + 0.5·cos over
 // weeks 156–168, a closed form of the simulator's truth; measured fits
-// say +26% to +34%, shrunk towards flat by the step prior, and their
-// intervals cover +36% in one world of four); no-season worlds: every channel constant. Goals: search
-// named in at least 3 of 4 season worlds, upwards, and the seasonal
-// specification preferred there; in no-season worlds at most 10% of
-// channel-worlds named and the seasonal specification preferred in at most
-// 20% of worlds (measured figures in the log).
+// say +26% to +34%, shrunk towards flat by the step prior; their 90%
+// intervals cover +36% in 3 worlds of four — the plain percentile
+// interval did in one, see changeInterval); no-season worlds: every
+// channel constant. Goals: search named in at least 3 of 4 season worlds,
+// upwards, and the seasonal specification preferred there, the interval
+// covering +36% in at least 2; in no-season worlds at most 10% of
+// channel-worlds named and the seasonal specification preferred in at
+// most 20% of worlds (measured: 0 of 32 and 0 of 8).
 func TestEffectivenessSeasonal(t *testing.T) {
 	nSeason, nFlat := 4, 8
 	if testing.Short() {
 		nSeason, nFlat = 1, 1
 	}
-	var named, preferred int
+	var named, preferred, covered int
+	var want float64 // the true lift: mean of 1 + 0.5·cos(2πt/52.18) over t = 156…168 (1.3568)
+	for w := 156; w <= 168; w++ {
+		want += (1 + 0.5*math.Cos(2*math.Pi*float64(w)/52.18)) / 13
+	}
 	for i := range nSeason {
 		tr := effectWorld(uint64(400+i), 0, 0, 0.01)
 		tr.Channels[0].SeasonEffect = 0.5
@@ -146,6 +184,9 @@ func TestEffectivenessSeasonal(t *testing.T) {
 		}
 		if r.Prefer == model.EffectSeasonal {
 			preferred++
+		}
+		if c.Low <= want && want <= c.High {
+			covered++
 		}
 	}
 	var alarms, prefer int
@@ -178,8 +219,9 @@ func TestEffectivenessSeasonal(t *testing.T) {
 	if testing.Short() {
 		return
 	}
-	if named < 3 || preferred < 3 {
-		t.Errorf("power: search named in %d of %d season worlds, seasonal preferred in %d (goal >= 3 each)", named, nSeason, preferred)
+	if named < 3 || preferred < 3 || covered < 2 {
+		t.Errorf("power: search named in %d of %d season worlds, seasonal preferred in %d (goal >= 3 each), interval covers the true lift %.3f in %d (goal >= 2)",
+			named, nSeason, preferred, want, covered)
 	}
 	if float64(alarms) > 0.1*float64(4*nFlat) || float64(prefer) > 0.2*float64(nFlat) {
 		t.Errorf("false alarms: %d of %d channel-worlds, seasonal preferred in %d of %d worlds", alarms, 4*nFlat, prefer, nFlat)
@@ -205,5 +247,92 @@ func TestEffectivenessTooShort(t *testing.T) {
 	}
 	if len(r.Channels) != 0 || r.Prefer != model.EffectConstant || len(r.Notes) != 1 || !strings.Contains(r.Notes[0], "needs at least") {
 		t.Errorf("short history: channels %d, prefer %s, notes %q", len(r.Channels), r.Prefer, r.Notes)
+	}
+}
+
+// recentChange against hand sums: a path rising linearly 1, 2, ..., 12
+// has mean 6.5 and its last 3 weeks mean 11, so 11/6.5; a flat path gives
+// 1; a path with a zero mean gives the neutral 1.
+func TestRecentChange(t *testing.T) {
+	lin := make([]float64, 12)
+	for i := range lin {
+		lin[i] = float64(i + 1)
+	}
+	for _, tc := range []struct {
+		name string
+		path []float64
+		w    int
+		want float64
+	}{
+		{"linear", lin, 3, 11 / 6.5},
+		{"whole path", lin, 12, 1},
+		{"flat", []float64{4, 4, 4, 4}, 2, 1},
+		{"late step", []float64{1, 1, 1, 1, 1, 1, 2, 2}, 2, 2 / 1.25},
+		{"zero", []float64{0, 0, 0}, 1, 1},
+	} {
+		if got := recentChange(tc.path, tc.w); math.Abs(got-tc.want) > 1e-12 {
+			t.Errorf("%s: %g, want %g", tc.name, got, tc.want)
+		}
+	}
+}
+
+// A change late in the history: search's effectiveness is flat for the
+// first 117 weeks, then rises linearly by 60% over the last 39 (the
+// simulator's drift_start_week: β(t) = β·(1 + 0.6·max(0, t−117)/38)). Its
+// mean over the 156 weeks is 1 + 0.6·19.5/156 = 1.075 of β, so the true
+// last week over the history average is 1.6/1.075 = 1.49 (closed form,
+// recomputed below from the formula). The recent-window statistic (last
+// 26 weeks over the history) sees such a change; two halves compared with
+// frozen shapes see a quarter of it.
+//
+// Measured (8 worlds, 60 refits and 60 simulated panels each): search
+// named upwards in 8 of 8 (z +2.3 to +5.5 against 2.30), the drifting
+// specification preferred in 7 (in the eighth its backtest ratio was
+// 1.002); the estimated change, +22% to +51% against the true +49%, is
+// smoothed by the basis and the step prior — a ramp this sharp is partly
+// read as an earlier, gentler one, and the 90% intervals cover the truth
+// in 7 of 8 worlds (the plain percentile interval covered it in 2: see
+// changeInterval). Goals: named upwards in at least 6 of 8 worlds, the
+// drifting specification preferred in at least 6, the interval covering
+// the truth in at least 5.
+//
+// Rerun: go test ./validation -run EffectivenessLateChange -v
+func TestEffectivenessLateChange(t *testing.T) {
+	worlds := 8
+	if testing.Short() {
+		worlds = 1
+	}
+	const start, up = 117, 0.6
+	n := 156
+	var mean float64
+	for i := range n {
+		mean += 1 + up*float64(max(0, i-start))/float64(n-1-start)
+	}
+	mean /= float64(n)
+	want := (1 + up) / mean
+	var named, preferred, covered int
+	for i := range worlds {
+		tr := effectWorld(uint64(600+i), 0, 0, 0.01)
+		tr.Channels[0].Drift, tr.Channels[0].DriftStart = up, start
+		sim, r := runEffect(t, tr, 60)
+		if got := sim.EffectPath[0][n-1] / sim.EffectPath[0][0]; math.Abs(got-(1+up)) > 1e-9 {
+			t.Fatalf("simulated path ends at %.4f of its start, want %.4f", got, 1+up)
+		}
+		c := r.Channels[0]
+		if c.Low <= want && want <= c.High {
+			covered++
+		}
+		t.Logf("late world %d: %s %s, last %d weeks %+.0f%%, z %+.1f (crit %.2f; true change %.2f); backtest ratio %.3f, prefer %s",
+			600+i, c.Name, c.Words(), r.RecentWeeks, 100*(c.Recent-1), c.Z, r.ZCrit, want, r.BacktestRatio, r.Prefer)
+		if c.Changed && c.Change > 1 {
+			named++
+		}
+		if r.Prefer == model.EffectDrifting {
+			preferred++
+		}
+	}
+	t.Logf("late change: search named upwards in %d of %d worlds, drifting preferred in %d, 90%% interval covers the true change in %d", named, worlds, preferred, covered)
+	if !testing.Short() && (named < 6 || preferred < 6 || covered < 5) {
+		t.Errorf("late change: named in %d of %d worlds, preferred in %d (goal >= 6 each), interval covers the truth in %d (goal >= 5)", named, worlds, preferred, covered)
 	}
 }

@@ -311,10 +311,11 @@ func countRequired(rec *record.Decision, signed []string) int {
 }
 
 // effectPaths are the brief's effectiveness-over-time paths: one per
-// channel the decision's model lets drift by the effectiveness evidence.
+// channel the decision's model lets drift (or follow the season) by the
+// effectiveness evidence.
 func effectPaths(run *decisionRun) []report.EffectPath {
 	ch := run.rec.Effectiveness
-	if run.effect == nil || ch == nil || ch.Model != model.EffectDrifting {
+	if run.effect == nil || ch == nil || ch.Model == model.EffectConstant || run.effect.Kind != ch.Model {
 		return nil
 	}
 	var weeks []string
@@ -324,8 +325,12 @@ func effectPaths(run *decisionRun) []report.EffectPath {
 	var out []report.EffectPath
 	for _, c := range run.effect.Channels {
 		if slices.Contains(ch.Channels, c.Name) {
-			out = append(out, report.EffectPath{Channel: c.Name, Weeks: weeks, Path: c.Path, PathLow: c.PathLow, PathHigh: c.PathHigh,
-				Change: c.Change, Low: c.Low, High: c.High})
+			ep := report.EffectPath{Channel: c.Name, Weeks: weeks, Path: c.Path, PathLow: c.PathLow, PathHigh: c.PathHigh,
+				Change: c.Change, Low: c.Low, High: c.High}
+			if ch.Model == model.EffectSeasonal {
+				ep.SeasonWeeks = c.Horizon
+			}
+			out = append(out, ep)
 		}
 	}
 	return out

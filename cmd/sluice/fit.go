@@ -39,13 +39,9 @@ func fitCommand() *cli.Command {
 			}
 			sum := newFitSummary(in, fr)
 			if o.Bool("effect-check") {
-				for _, kind := range []string{model.EffectDrifting, model.EffectSeasonal} {
-					er, err := validation.Effectiveness(in.Design, in.Panel.KPI,
-						validation.EffectSettings{Seed: in.Seed, Workers: in.Workers, Kind: kind})
-					if err != nil {
-						return err
-					}
-					sum.Effect = append(sum.Effect, er)
+				if sum.Effect, err = validation.EffectEvidence(in.Design, in.Panel.KPI,
+					validation.EffectSettings{Seed: in.Seed, Workers: in.Workers}); err != nil {
+					return err
 				}
 			}
 			sum.Warnings = fitWarnings(sum, fr, in, o.isSet("value-per-kpi"))
@@ -235,15 +231,19 @@ func printEffect(w io.Writer, s fitSummary) {
 
 // printEffectCheck prints one effectiveness check (drifting or seasonal).
 func printEffectCheck(w io.Writer, e *validation.EffectResult) {
-	fmt.Fprintf(w, "\neffectiveness check, %s (every channel %s, %d of %d bootstrap refits, named when |z| > %.2f: %.0f%% family-wise false alarms):\n",
-		e.Kind, e.Kind, e.Replicates, e.Tried, e.ZCrit, 100*e.Alpha)
+	fmt.Fprintf(w, "\neffectiveness check, %s (every channel %s, %d of %d bootstrap refits; z against %d of %d panels simulated without any change, named when |z| > %.2f: %.0f%% family-wise false alarms):\n",
+		e.Kind, e.Kind, e.Replicates, e.Tried, e.NullPanels, e.NullTried, e.ZCrit, 100*e.Alpha)
 	named := 0
 	for _, c := range e.Channels {
 		mark := "steady"
 		if c.Changed {
 			mark, named = "CHANGED", named+1
 		}
-		fmt.Fprintf(w, "  %s %s: %s, z %+.1f\n", mark, c.Name, c.Words(), c.Z)
+		recent := ""
+		if e.RecentWeeks > 0 {
+			recent = fmt.Sprintf("; last %d weeks %+.0f%%", e.RecentWeeks, 100*(c.Recent-1))
+		}
+		fmt.Fprintf(w, "  %s %s: %s%s, z %+.1f\n", mark, c.Name, c.Words(), recent, c.Z)
 	}
 	if len(e.Origins) > 0 {
 		fmt.Fprintf(w, "  backtest over the last weeks (%d origins): %s/constant forecast RMSE %.3f\n", len(e.Origins), e.Kind, e.BacktestRatio)

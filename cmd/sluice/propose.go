@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"cmp"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -45,7 +46,7 @@ func decisionFlags() []cli.Flag {
 		&cli.StringFlag{Name: "proposal", Usage: "gate this plan (YAML: channels: {name: weekly spend}) instead of the allocator's"},
 		&cli.StringFlag{Name: "waivers", Usage: "signatures file of an earlier record whose signed waivers apply to this decision"},
 		&cli.BoolFlag{Name: "quiet", Usage: "no progress bar"},
-		&cli.BoolFlag{Name: "effect-choice", Value: true, Usage: "test whether each channel's effectiveness changed over the history and, when the evidence is strong, decide with those channels drifting (--effect-choice=false: keep the specification as given)"},
+		&cli.BoolFlag{Name: "effect-choice", Value: true, Usage: "test whether each channel's effectiveness changed over the history or follows the season and, when the evidence is strong, decide with those channels drifting or seasonal (--effect-choice=false: keep the specification as given)"},
 	)
 }
 
@@ -337,8 +338,8 @@ func decide(c *cli.Context, in *modelInput, a decisionArgs) (*decisionRun, error
 		}
 	}
 	if ch := out.EffectChoice; ch != nil && ch.Note != "" {
-		fmt.Fprintf(c.App.ErrWriter, "note: %s\nhint: rerun sluice bootstrap with --drifting %s and pass the new draws, or drop --draws so propose runs the bootstrap of the chosen model\n",
-			ch.Note, strings.Join(namedChanges(ch), ","))
+		fmt.Fprintf(c.App.ErrWriter, "note: %s\nhint: rerun sluice bootstrap with --%s %s and pass the new draws, or drop --draws so propose runs the bootstrap of the chosen model\n",
+			ch.Note, ch.Preferred, strings.Join(namedChanges(ch), ","))
 	}
 	rec := out.Record
 	rec.Version, rec.Inputs = version, inputs
@@ -455,21 +456,27 @@ func printEffectChoice(w io.Writer, ch *record.EffectChoice) {
 	}
 	fmt.Fprintf(w, "\neffectiveness: %s; %s\n", m, ch.Evidence)
 	for _, c := range ch.Changes {
-		if c.Named {
-			fmt.Fprintf(w, "  %s: effectiveness in the last week %+.0f%% against its history average (90%% interval %+.0f%% to %+.0f%%)\n",
-				c.Channel, 100*(c.Change-1), 100*(c.Low-1), 100*(c.High-1))
+		if !c.Named {
+			continue
 		}
+		what := "in the last week %+.0f%% against its history average"
+		if c.Kind == model.EffectSeasonal {
+			what = "over the horizon %+.0f%% against its yearly average"
+		}
+		fmt.Fprintf(w, "  %s: effectiveness "+what+" (90%% interval %+.0f%% to %+.0f%%; %s)\n",
+			c.Channel, 100*(c.Change-1), 100*(c.Low-1), 100*(c.High-1), cmp.Or(c.Kind, model.EffectDrifting))
 	}
 	if ch.Note != "" {
 		fmt.Fprintf(w, "  note: %s\n", ch.Note)
 	}
 }
 
-// namedChanges lists the channels whose change the evidence named.
+// namedChanges lists the channels whose change the evidence named under
+// the preferred kind.
 func namedChanges(ch *record.EffectChoice) []string {
 	var out []string
 	for _, c := range ch.Changes {
-		if c.Named {
+		if c.Named && cmp.Or(c.Kind, model.EffectDrifting) == ch.Preferred {
 			out = append(out, c.Channel)
 		}
 	}

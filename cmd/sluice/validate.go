@@ -10,7 +10,6 @@ import (
 
 	"github.com/urfave/cli/v2"
 
-	"sluice/model"
 	"sluice/optimize"
 	"sluice/validation"
 )
@@ -173,27 +172,21 @@ func runValidate(c *cli.Context) error {
 		return err
 	}
 	if o.Bool("effect-check") {
-		for _, kind := range []string{model.EffectDrifting, model.EffectSeasonal} {
-			er, err := validation.Effectiveness(in.Design, in.Panel.KPI,
-				validation.EffectSettings{Seed: in.Seed, Workers: in.Workers, Kind: kind})
-			if err != nil {
-				return err
-			}
+		evs, err := validation.EffectEvidence(in.Design, in.Panel.KPI, validation.EffectSettings{Seed: in.Seed, Workers: in.Workers})
+		if err != nil {
+			return err
+		}
+		for _, er := range evs {
 			out.Effect = append(out.Effect, er)
 			res.Evidence.Checks = append(res.Evidence.Checks, er.Checks()...)
 			for _, n := range er.Notes {
 				out.Notes = append(out.Notes, "effectiveness: "+n)
 			}
-			if er.Prefer == kind && !in.Spec.AnyDrifting() {
-				var names []string
-				for _, c := range er.Channels {
-					if c.Changed {
-						names = append(names, c.Name)
-					}
-				}
-				out.Notes = append(out.Notes, fmt.Sprintf("effectiveness is %s for %s and that specification forecasts the last weeks better: refit with --%s %s",
-					kind, strings.Join(names, ", "), kind, strings.Join(names, ",")))
-			}
+		}
+		if er := validation.ChooseEffect(evs); er != nil && !in.Spec.AnyDrifting() {
+			names := er.Named()
+			out.Notes = append(out.Notes, fmt.Sprintf("effectiveness is %s for %s and that specification forecasts the last weeks better: refit with --%s %s",
+				er.Kind, strings.Join(names, ", "), er.Kind, strings.Join(names, ",")))
 		}
 	}
 	out.Checks = res.Evidence.Checks
