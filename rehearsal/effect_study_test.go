@@ -3,13 +3,9 @@ package rehearsal
 import (
 	"context"
 	"fmt"
-	"math"
 	"strings"
 	"testing"
 	"time"
-
-	"sluice/model"
-	"sluice/validation"
 )
 
 // effectTable writes the with/without comparison as the study logs it:
@@ -31,47 +27,44 @@ func effectTable(r *Result) string {
 // TestEffectOptionStudy is issue 16's rehearsal bullet on the example
 // problem (Fernhill Tea Co., invented; 156 weeks, 6 channels): 24 drift
 // worlds and 8 season worlds, each decided with the effectiveness choice
-// (propose's default) and, where it switched, again without it, both
-// scored under the world's own truth (truth.go, apart from the model's
-// code). It logs every world (drawn drift, the choice, the standard
-// policy's share of the oracle's gain with and without) and the summary.
-// For the season worlds it also runs the seasonal evidence
-// (validation.Effectiveness, seasonal kind) and logs its estimate of the
-// affected channel's effectiveness over the horizon against the world's
-// true one (the mean of its β multiplier over the horizon's weeks, the
-// world's own formula), which is what seasonSize must give it to find.
+// (propose's default: drifting and seasonal evidence) and, where it
+// switched, again without it, both scored under the world's own truth
+// (truth.go, apart from the model's code). It logs every world (drawn
+// drift, the choice, the standard policy's share of the oracle's gain with
+// and without) and the summary.
 //
-// Measured (seed 16; 42–57 s in all on 2 cores shared with other work):
+// Measured (seed 16, with main's calibrated evidence; 64 s in all, 48 s of
+// it the drift worlds, on 2 cores shared with other work at a load of
+// about 3; 120 s at a load of 5 with an extra probe since removed):
 //
 //	drift   24 worlds (15 rising, 9 falling; 13 over the last third only),
-//	        the choice switched in 6 (in 5 of them on the affected channel,
-//	        once only on an unaffected one);
-//	        share of the oracle's gain / P(loss):
-//	        raw      with 82% / 0%, without 83% / 0%
-//	        standard with 58% / 0%, without 54% / 0%
-//	season   8 worlds, the choice switched in none (on this branch it runs
-//	        the drifting kind only); raw 49% / 12%, standard 26% / 0%
-//	seasonal evidence: the affected channel named in 3 of the 8 season
-//	        worlds, all three with a true horizon effectiveness beyond ±10%
-//	        of the yearly mean (all 8 worlds are beyond it)
+//	        the choice switched in 5 (4 on the affected channel, once only
+//	        on an unaffected one); share of the oracle's gain / P(loss):
+//	        raw      with 83% / 0%, without 83% / 0%
+//	        standard with 54% / 0%, without 50% / 0%
+//	season   8 worlds, the choice switched in 4 (3 seasonal on the
+//	        affected channel, 1 drifting on another):
+//	        raw      with 54% / 0%, without 49% / 12%
+//	        standard with 24% / 0%, without 26% / 0%
 //
-// So the option helps a little here: it switches in a quarter of the drift
-// worlds and, where it does, standard keeps more of the oracle's gain than
-// with the constant model in 5 of the 6 (in two, 54% and 33% against
-// nothing) and a point less in 1. The assertions are what these figures
-// support: the choice switches in some drift worlds (at least 2 of 24,
-// measured 6); with it, the pooled share of the
-// oracle's gain in drift worlds is not lower than without by more than 5
-// points, about one switched world losing its whole oracle gain (each
-// world's oracle is about 4% of the kind's sum; common practice, no
-// source), and P(loss) is not higher by more than one world in 24; the
-// seasonal evidence names the affected channel in at least 2 of the 8
-// season worlds (measured 3), which is what seasonSize must give it. The
-// season rows' with/without is logged, not asserted: where the choice
-// switched in no world the two sides are one decision, and asserting them
-// equal would pass vacuously. The first switched drift world is also
-// decided on its own without the choice, which must give exactly the
-// scores kept as its decision without the choice.
+// So the option helps a little in drift worlds: where it switches, standard
+// keeps more of the oracle's gain than with the constant model in 3 of 5
+// (54% and 37% against nothing in two), as much in 1 and less in 1 (0%
+// against 19%, a switch on an unaffected channel). In season worlds it
+// spares the raw proposal a loss and costs standard 2 points. seasonSize
+// (±40%) gives the seasonal kind something to find: the choice let the
+// affected channel vary seasonally in 3 of 8 season worlds.
+//
+// The assertions are what these figures support: the choice switches in
+// at least 2 worlds of each kind (measured 5 and 4; so the comparison
+// below is not between one decision and itself), in at least one on the
+// affected channel; with it, each way of deciding keeps a share of the
+// oracle's gain not lower than without by more than one average world's
+// whole oracle gain (1/24 in drift, 1/8 in season worlds: common practice,
+// no source), and its P(loss) is not higher by more than one world. The
+// first switched drift world is also decided on its own without the
+// choice, which must give exactly the scores kept as its decision without
+// the choice.
 func TestEffectOptionStudy(t *testing.T) {
 	if testing.Short() {
 		t.Skip("a rehearsal of 32 worlds, each decided once or twice")
@@ -113,48 +106,7 @@ func TestEffectOptionStudy(t *testing.T) {
 		return r
 	}
 	drift := run(Drift, 24)
-	run(Season, 8)
-
-	// The seasonal evidence on the season worlds, against their truth.
-	s := settings(Season, 8).withDefaults()
-	b, err := newBase(ctx, p, s)
-	if err != nil {
-		t.Fatal(err)
-	}
-	named := 0
-	for i := range s.Worlds {
-		w := b.world(s.Seed, i, 1, s.Kinds)
-		k := w.affected
-		// The world's true effectiveness over the horizon over its yearly
-		// mean: the mean of 1 + seasonSize sin(2π t/P + φ) over the
-		// horizon's weeks; read from the truth the world holds, checked
-		// against the formula in TestSeasonIsAYearlyCycleInBeta.
-		truth := w.Truth.Channels[k].Beta / b.draws[w.Draw].Channels[k].Beta
-		d, err := model.NewDesign(w.Panel, p.Design.Spec)
-		if err != nil {
-			t.Fatal(err)
-		}
-		ev, err := validation.Effectiveness(d, w.Panel.KPI, validation.EffectSettings{Seed: w.Seed, Workers: 2, Kind: model.EffectSeasonal})
-		if err != nil {
-			t.Fatal(err)
-		}
-		c := ev.Channels[k]
-		var others []string
-		for _, o := range ev.Channels {
-			if o.Changed && o.Name != w.Channel {
-				others = append(others, o.Name)
-			}
-		}
-		t.Logf("season world %d on %s: true horizon effectiveness ×%.2f of its yearly mean, seasonal evidence ×%.2f (90%% %.2f–%.2f, z %.1f, named %v); also named %v; prefers %s",
-			i, w.Channel, truth, c.Change, c.Low, c.High, c.Z, c.Changed, others, ev.Prefer)
-		if c.Changed && math.Abs(truth-1) > 0.1 {
-			named++
-		}
-	}
-	t.Logf("seasonal evidence named the affected channel in %d of %d season worlds with a true horizon effectiveness beyond ±10%%", named, s.Worlds)
-	if named < 2 {
-		t.Errorf("the seasonal evidence named the affected channel in %d of %d season worlds, want at least 2 (measured 3)", named, s.Worlds)
-	}
+	season := run(Season, 8)
 
 	// A switched world's decision without the choice is exactly the world
 	// decided by a rehearsal run without the choice: same seed, sizes and
@@ -182,26 +134,31 @@ func TestEffectOptionStudy(t *testing.T) {
 		break
 	}
 
-	var dc *EffectComparison
-	for i := range drift.Effect {
-		if drift.Effect[i].Kind == Drift {
-			dc = &drift.Effect[i]
+	for _, r := range []*Result{drift, season} {
+		kind := r.Worlds[0].Kind
+		var c *EffectComparison
+		for i := range r.Effect {
+			if r.Effect[i].Kind == kind {
+				c = &r.Effect[i]
+			}
 		}
-	}
-	if dc == nil {
-		t.Fatal("no drift row in the with/without summary")
-	}
-	if dc.Switched < 2 {
-		t.Errorf("the effectiveness choice switched in %d of %d drift worlds, want at least 2 (measured 6)", dc.Switched, dc.Worlds)
-	}
-	for _, d := range dc.Deciders {
-		if d.With.OracleShare < d.Without.OracleShare-0.05 {
-			t.Errorf("%s: with the choice %.0f%% of the oracle's gain, without %.0f%%: lower by more than 5 points",
-				d.Name, 100*d.With.OracleShare, 100*d.Without.OracleShare)
+		if c == nil {
+			t.Fatalf("no %s row in the with/without summary", kind)
 		}
-		if d.With.PLoss > d.Without.PLoss+1/float64(dc.Worlds)+1e-12 {
-			t.Errorf("%s: P(loss) with the choice %.0f%%, without %.0f%%: higher by more than one world",
-				d.Name, 100*d.With.PLoss, 100*d.Without.PLoss)
+		if c.Switched < 2 || c.OnAffected < 1 {
+			t.Errorf("%s: the effectiveness choice switched in %d of %d worlds (%d on the affected channel), want at least 2 (1)",
+				kind, c.Switched, c.Worlds, c.OnAffected)
+		}
+		one := 1 / float64(c.Worlds)
+		for _, d := range c.Deciders {
+			if d.With.OracleShare < d.Without.OracleShare-one {
+				t.Errorf("%s, %s: with the choice %.0f%% of the oracle's gain, without %.0f%%: lower by more than one world's (%.0f points)",
+					kind, d.Name, 100*d.With.OracleShare, 100*d.Without.OracleShare, 100*one)
+			}
+			if d.With.PLoss > d.Without.PLoss+one+1e-12 {
+				t.Errorf("%s, %s: P(loss) with the choice %.0f%%, without %.0f%%: higher by more than one world",
+					kind, d.Name, 100*d.With.PLoss, 100*d.Without.PLoss)
+			}
 		}
 	}
 }
