@@ -546,7 +546,7 @@ func decideWorld(ctx context.Context, p Problem, s Settings, w *World) (*Outcome
 	// it under the same truth and oracle. This costs one more decision
 	// (bootstrap, validation, allocation, gates; not the evidence) in each
 	// switched world only: 0.48 s on the demo data at the default sizes,
-	// against 3.48 s for the switched world in all (BenchmarkDecideDriftWorld).
+	// against 2.58 s for the switched world in all (BenchmarkDecideDriftWorld).
 	set.EffectChoice = false
 	prep0, err := decision.Prepare(ctx, in, set)
 	if err != nil {
