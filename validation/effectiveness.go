@@ -2,9 +2,9 @@ package validation
 
 import (
 	"fmt"
-	"strings"
 	"math"
 	"math/rand/v2"
+	"strings"
 
 	"gonum.org/v1/gonum/stat/distuv"
 

@@ -168,6 +168,18 @@ func ReadLifts(r io.Reader, source string, p *model.Panel) ([]LiftTest, error) {
 			return nil, errAt(line, col, "the standard error of the measured incremental KPI, as the experiment reports it",
 				"std_error %g must be positive", lt.StdError)
 		}
+		var spent float64
+		for t := lt.From; t <= lt.To; t++ {
+			spent += p.Spend[lt.ChannelIndex][t]
+		}
+		if !(spent > 0) {
+			// The model's effect of the window is zero with zero
+			// uncertainty: comparing a measured lift with it would test
+			// nothing and a calibrated fit would be forced through it.
+			_, line, col := cell("start")
+			return nil, errAt(line, col, "a lift test measures the KPI the channel's spend in its window adds; check the window's dates against the panel's spend column",
+				"%s spent nothing in the panel from %s to %s, the test's window", lt.Channel, lt.Start.Format(time.DateOnly), lt.End.Format(time.DateOnly))
+		}
 		out = append(out, lt)
 	}
 	if len(out) == 0 {

@@ -9,7 +9,8 @@ import (
 	"sluice/model"
 )
 
-// liftPanel is a 20-week panel from Monday 2024-01-01 with two channels.
+// liftPanel is a 20-week panel from Monday 2024-01-01 with two channels,
+// each spending 1000 a week, social nothing in weeks 10–12.
 func liftPanel() *model.Panel {
 	p := &model.Panel{Source: "weekly.csv", KPIName: "revenue", Channels: []string{"search", "social"}}
 	start := time.Date(2024, 1, 1, 0, 0, 0, 0, time.UTC)
@@ -18,6 +19,13 @@ func liftPanel() *model.Panel {
 		p.KPI = append(p.KPI, 100)
 	}
 	p.Spend = [][]float64{make([]float64, 20), make([]float64, 20)}
+	for k := range p.Spend {
+		for t := range p.Spend[k] {
+			if k == 0 || t < 10 || t > 12 {
+				p.Spend[k][t] = 1000
+			}
+		}
+	}
 	return p
 }
 
@@ -75,6 +83,7 @@ func TestReadLiftsErrors(t *testing.T) {
 		{"empty se", h + "search,2024-01-08,2024-01-14,1,\n", "lifts.csv:2:32: std_error \"\" is not a number"},
 		{"field count", h + "search,2024-01-08,2024-01-14,1\n", "lifts.csv:2:1: wrong number of fields"},
 		{"bare quote", h + "search,2024-01-08,2024-01-14,1\"2,1\n", "lifts.csv:2:31: bare \" in non-quoted-field"},
+		{"dark window", h + "social,2024-03-11,2024-03-24,1,1\n", "lifts.csv:2:8: social spent nothing in the panel from 2024-03-11 to 2024-03-24, the test's window"},
 		{"second row", h + "search,2024-01-08,2024-01-14,1,1\nsocial,2024-01-08,2024-01-14,1,x\n", "lifts.csv:3:32: std_error \"x\" is not a number"},
 	}
 	for _, c := range cases {
