@@ -85,8 +85,8 @@ type EffectChannel struct {
 	// Z is (log Recent − m) / s, m and s the mean and SD of log Recent over
 	// the panels simulated from the constant fit.
 	Z float64 `json:"z"`
-	// Judged says whether the refits settle the channel's average
-	// effectiveness (SettledShare); a channel not judged is never named.
+	// Judged says whether the data settle the channel's change enough
+	// to judge it (SettledFloor); a channel not judged is never named.
 	Judged   bool      `json:"judged"`
 	Changed  bool      `json:"changed"`
 	Path     []float64 `json:"path"`      // β(t) of the drifting fit, every week
@@ -292,16 +292,14 @@ func Effectiveness(d *model.Design, y []float64, set EffectSettings) (*EffectRes
 		if m, sd := meanOf(nulls[k]), sdOf(nulls[k]); sd > 0 {
 			ec.Z = (math.Log(math.Max(ec.Recent, 1e-9)) - m) / sd
 		}
-		// A change is a ratio to the channel's average effectiveness: only
-		// a channel whose average the refits settle is judged.
-		avg := make([]float64, len(paths[k]))
-		for i, pth := range paths[k] {
-			avg[i] = meanOf(pth)
-		}
-		ec.Judged = sample.Quantiles(avg, 0.05)[0] >= SettledShare*meanOf(ec.Path)
+		// A channel whose interval runs from no effectiveness at all to
+		// no change (or beyond) is one whose change the data cannot tell,
+		// whatever its z: it is not judged.
+		ec.Judged = !(ec.Low < SettledFloor && ec.High > 1)
 		ec.Changed = ec.Judged && math.Abs(ec.Z) > res.ZCrit
 		if !ec.Judged {
-			res.Notes = append(res.Notes, fmt.Sprintf("%s: not judged — the %s fit cannot settle its average effectiveness (the refits' 5%% quantile of it is below %.0f%% of the estimate), so a change of it cannot be told", c.Name, set.Kind, 100*SettledShare))
+			res.Notes = append(res.Notes, fmt.Sprintf("%s: not judged — the %s fit cannot settle its effectiveness (its 90%% interval runs from %.0f%% to %.0f%% of the average: from none at all to no change)",
+				c.Name, set.Kind, 100*ec.Low, 100*ec.High))
 		}
 		ec.PathLow, ec.PathHigh = make([]float64, n), make([]float64, n)
 		col := make([]float64, len(paths[k]))
@@ -398,15 +396,15 @@ func ModelledChecks(rs []*EffectResult, d *model.Design) []Check {
 	return out
 }
 
-// SettledShare is how far the refits may put a channel's average
-// effectiveness below the estimate before a change of it is not judged:
-// the 5% quantile of the refits' average must be at least this share of
-// the estimate (common practice, no source). A channel whose average the
-// data do not settle — its refits often fit it to zero — has a change
-// ratio whose spread the simulated panels without change understate (in
-// the rehearsal's drift worlds, such channels took the name of the one
-// that drifted).
-const SettledShare = 0.1
+// SettledFloor is the lower end of a change's 90% interval below which,
+// when the interval also reaches no change, the change is not judged: the
+// refits put the channel's effectiveness anywhere from about none (5% of
+// its average) to unchanged or higher, so no direction can be told (common
+// practice, no source). Such channels — a small or flighted channel whose
+// effect the data barely settle — have a change ratio whose spread the
+// panels simulated without change understate, and were the ones the
+// evidence named wrongly in the rehearsal's drift worlds.
+const SettledFloor = 0.05
 
 // EffectKinds are the varying specifications the evidence tests, in the
 // order it reports them.

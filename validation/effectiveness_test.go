@@ -336,3 +336,33 @@ func TestEffectivenessLateChange(t *testing.T) {
 		t.Errorf("late change: named in %d of %d worlds, preferred in %d (goal >= 6 each), interval covers the truth in %d (goal >= 5)", named, worlds, preferred, covered)
 	}
 }
+
+// A channel with no effect at all (audio's true β is 0; noise 2% of the
+// KPI): the drifting fit's interval for its change runs from about none
+// to above no change, so it is not judged — never named, with a note —
+// while the channels with an effect are judged. Its truth is constant, so
+// naming it would be a false alarm in any case.
+func TestEffectivenessNotJudged(t *testing.T) {
+	tr := effectWorld(31, 0, 0, 0.02)
+	tr.Channels[3].Beta = 0
+	_, r := runEffect(t, tr, 40)
+	for _, c := range r.Channels {
+		t.Logf("%s: judged %v, change %.2f [%.2f, %.2f], z %+.1f, path mean %.3g", c.Name, c.Judged, c.Change, c.Low, c.High, c.Z, meanOf(c.Path))
+		if c.Name == "audio" {
+			if c.Judged || c.Changed {
+				t.Errorf("audio: judged %v, named %v; want neither (its average is not settled)", c.Judged, c.Changed)
+			}
+			continue
+		}
+		if !c.Judged {
+			t.Errorf("%s: not judged", c.Name)
+		}
+	}
+	found := false
+	for _, n := range r.Notes {
+		found = found || strings.HasPrefix(n, "audio: not judged")
+	}
+	if !found {
+		t.Errorf("no note says audio is not judged: %q", r.Notes)
+	}
+}

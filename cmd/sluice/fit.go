@@ -236,8 +236,11 @@ func printEffectCheck(w io.Writer, e *validation.EffectResult) {
 	named := 0
 	for _, c := range e.Channels {
 		mark := "steady"
-		if c.Changed {
+		switch {
+		case c.Changed:
 			mark, named = "CHANGED", named+1
+		case !c.Judged:
+			mark = "not judged"
 		}
 		recent := ""
 		if e.RecentWeeks > 0 {
