@@ -1,7 +1,6 @@
 package rehearsal
 
 import (
-	"encoding/json"
 	"math"
 	"slices"
 	"testing"
@@ -137,17 +136,7 @@ func TestMergeKeepsTheComparison(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	js := func(r *Result) []byte {
-		b, err := json.Marshal(struct {
-			R *Result
-			W []Outcome
-		}{r, r.Worlds})
-		if err != nil {
-			t.Fatal(err)
-		}
-		return b
-	}
-	if a, b := js(whole), js(merged); !slices.Equal(a, b) {
+	if a, b := resultJSON(t, whole), resultJSON(t, merged); !slices.Equal(a, b) {
 		t.Errorf("merged differs from unsharded:\n%s\n%s", b, a)
 	}
 	if len(merged.Effect) != 3 {

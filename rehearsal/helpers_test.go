@@ -1,6 +1,7 @@
 package rehearsal
 
 import (
+	"encoding/json"
 	"testing"
 
 	"sluice/model"
@@ -42,3 +43,17 @@ func demoProblem(t testing.TB, pols ...string) Problem {
 type Params = model.Params
 
 func fitSettingsForTest() model.FitSettings { return model.FitSettings{Seed: 1, Workers: 2} }
+
+// resultJSON is r with its worlds as JSON, for byte-for-byte comparisons
+// of two runs.
+func resultJSON(t *testing.T, r *Result) []byte {
+	t.Helper()
+	b, err := json.Marshal(struct {
+		R *Result
+		W []Outcome
+	}{r, r.Worlds})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}

@@ -2,7 +2,6 @@ package rehearsal
 
 import (
 	"context"
-	"encoding/json"
 	"math"
 	"slices"
 	"strings"
@@ -102,14 +101,7 @@ func TestSameSeedSameResult(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		b, err := json.Marshal(struct {
-			R *Result
-			W []Outcome
-		}{r, r.Worlds})
-		if err != nil {
-			t.Fatal(err)
-		}
-		return b
+		return resultJSON(t, r)
 	}
 	a, b := run(2), run(1)
 	if !slices.Equal(a, b) {
