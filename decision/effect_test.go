@@ -2,6 +2,7 @@ package decision
 
 import (
 	"context"
+	"maps"
 	"slices"
 	"testing"
 
@@ -107,11 +108,13 @@ func TestEffectChoice(t *testing.T) {
 
 // TestEffectModelledCheck: when the evidence names search's change but the
 // decision keeps the constant model (a draws file of the constant model
-// fixes it), the effect/modelled check fails on search and the standard
-// policy (effectiveness: {on_fail: hold}) keeps search at its current
-// spend; social, not named, passes. With the choice free, search drifts
-// and the check passes. Truth: search's effectiveness doubles over the
-// history (effectWorld, the simulator's drift).
+// fixes it), the effect/modelled check fails on search; a policy whose
+// effectiveness family holds (cautious's rule, here on the standard
+// preset so nothing else changes) keeps search at its current spend,
+// while standard itself only warns and moves it. social, not named,
+// passes. With the choice free, search drifts and the check passes.
+// Truth: search's effectiveness doubles over the history (effectWorld,
+// the simulator's drift).
 func TestEffectModelledCheck(t *testing.T) {
 	panel, d, plan := effectWorld(t, 1.0)
 	b := &uncertainty.Bootstrap{Design: d, Y: panel.KPI, Method: uncertainty.MovingBlock, Draws: 20, Seed: 7, Workers: 2}
@@ -122,6 +125,15 @@ func TestEffectModelledCheck(t *testing.T) {
 	std, err := policies.Preset("standard")
 	if err != nil {
 		t.Fatal(err)
+	}
+	holding, err := policies.Preset("standard")
+	if err != nil {
+		t.Fatal(err)
+	}
+	holding.Evidence.Families = maps.Clone(holding.Evidence.Families)
+	holding.Evidence.Families[validation.EffectFamily] = policies.ActionRule{OnFail: policies.Hold}
+	if std.Evidence.Families[validation.EffectFamily].OnFail != policies.Warn {
+		t.Fatalf("standard's effectiveness rule is %q, want warn", std.Evidence.Families[validation.EffectFamily].OnFail)
 	}
 	for _, tc := range []struct {
 		name   string
@@ -146,13 +158,19 @@ func TestEffectModelledCheck(t *testing.T) {
 			if got["search"] != tc.search || got["social"] != validation.Pass {
 				t.Fatalf("effect/modelled: %v, want search %s and social pass", got, tc.search)
 			}
-			out, err := p.Judge(std, nil)
-			if err != nil {
-				t.Fatal(err)
-			}
-			held := out.Gate.ApprovedPlan[0] == p.Current[0]
-			if held != (tc.search == validation.Fail) {
-				t.Errorf("search approved %.0f against current %.0f: held %v, want %v", out.Gate.ApprovedPlan[0], p.Current[0], held, tc.search == validation.Fail)
+			for _, pc := range []struct {
+				pol      *policies.Policy
+				wantHold bool
+			}{{holding, tc.search == validation.Fail}, {std, false}} {
+				out, err := p.Judge(pc.pol, nil)
+				if err != nil {
+					t.Fatal(err)
+				}
+				held := out.Gate.ApprovedPlan[0] == p.Current[0]
+				if held != pc.wantHold {
+					t.Errorf("effectiveness rule %q: search approved %.0f against current %.0f: held %v, want %v",
+						pc.pol.Evidence.Families[validation.EffectFamily].OnFail, out.Gate.ApprovedPlan[0], p.Current[0], held, pc.wantHold)
+				}
 			}
 		})
 	}
