@@ -27,6 +27,13 @@ func effectWorld(seed uint64, up, down, noise float64) *model.Truth {
 
 func runEffect(t *testing.T, tr *model.Truth, reps int) (*model.Simulated, *EffectResult) {
 	t.Helper()
+	return runEffectKind(t, tr, reps, model.EffectDrifting)
+}
+
+// runEffectKind simulates tr and runs the effectiveness check of kind on
+// it with reps refits and simulated panels.
+func runEffectKind(t *testing.T, tr *model.Truth, reps int, kind string) (*model.Simulated, *EffectResult) {
+	t.Helper()
 	sim, err := model.Simulate(tr)
 	if err != nil {
 		t.Fatal(err)
@@ -35,7 +42,7 @@ func runEffect(t *testing.T, tr *model.Truth, reps int) (*model.Simulated, *Effe
 	if err != nil {
 		t.Fatal(err)
 	}
-	r, err := Effectiveness(d, sim.Panel.KPI, EffectSettings{Seed: 3, Workers: 2, Replicates: reps})
+	r, err := Effectiveness(d, sim.Panel.KPI, EffectSettings{Seed: 3, Workers: 2, Replicates: reps, Kind: kind})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -162,18 +169,7 @@ func TestEffectivenessSeasonal(t *testing.T) {
 	for i := range nSeason {
 		tr := effectWorld(uint64(400+i), 0, 0, 0.01)
 		tr.Channels[0].SeasonEffect = 0.5
-		sim, err := model.Simulate(tr)
-		if err != nil {
-			t.Fatal(err)
-		}
-		d, err := model.NewDesign(sim.Panel, tr.Spec())
-		if err != nil {
-			t.Fatal(err)
-		}
-		r, err := Effectiveness(d, sim.Panel.KPI, EffectSettings{Seed: 3, Workers: 2, Replicates: 40, Kind: model.EffectSeasonal})
-		if err != nil {
-			t.Fatal(err)
-		}
+		_, r := runEffectKind(t, tr, 40, model.EffectSeasonal)
 		c := r.Channels[0]
 		t.Logf("season world %d: %s %s, z %+.1f; backtest ratio %.3f, prefer %s", 400+i, c.Name, c.Words(), c.Z, r.BacktestRatio, r.Prefer)
 		if c.Changed {
@@ -191,19 +187,7 @@ func TestEffectivenessSeasonal(t *testing.T) {
 	}
 	var alarms, prefer int
 	for i := range nFlat {
-		tr := effectWorld(uint64(500+i), 0, 0, 0.01)
-		sim, err := model.Simulate(tr)
-		if err != nil {
-			t.Fatal(err)
-		}
-		d, err := model.NewDesign(sim.Panel, tr.Spec())
-		if err != nil {
-			t.Fatal(err)
-		}
-		r, err := Effectiveness(d, sim.Panel.KPI, EffectSettings{Seed: 3, Workers: 2, Replicates: 40, Kind: model.EffectSeasonal})
-		if err != nil {
-			t.Fatal(err)
-		}
+		_, r := runEffectKind(t, effectWorld(uint64(500+i), 0, 0, 0.01), 40, model.EffectSeasonal)
 		for _, c := range r.Channels {
 			if c.Changed {
 				alarms++
